@@ -1,0 +1,74 @@
+//! `capstack capability`: per-feature capability with bounds, reject rates and normality.
+
+use super::Outcome;
+use crate::cli::{CapabilityArgs, WithinArg};
+use crate::error::InputError;
+use crate::output::capability::CapabilityReport;
+use crate::output::{render, Sink};
+use crate::stats::capability::CapabilityOptions;
+use crate::stats::within::WithinMethod;
+use crate::study::{study, StudySettings, Subgrouping};
+
+pub fn run(args: &CapabilityArgs) -> anyhow::Result<Outcome> {
+    let settings = settings(args)?;
+    let mut sink = Sink::open(args.out.output.as_deref())?;
+    let (data, specs) = super::load(&args.data)?;
+    let features = study(&data, &specs, &settings)?;
+    let report = CapabilityReport {
+        features,
+        audit: data.audit,
+        confidence: settings.options.confidence,
+    };
+    render(&report, args.out.format, &mut sink)?;
+    let flagged = report.features.iter().any(|f| !f.flags.is_empty());
+    Ok(if args.gate && flagged {
+        Outcome::GateFailed
+    } else {
+        Outcome::Done
+    })
+}
+
+/// Validates the flags once, before any file is read.
+fn settings(args: &CapabilityArgs) -> Result<StudySettings, InputError> {
+    if !(args.confidence > 0.5 && args.confidence < 1.0) {
+        return Err(InputError::new(format!(
+            "--confidence {} must lie between 0.5 and 1 (0.95 is usual)",
+            args.confidence
+        )));
+    }
+    if !(args.alpha > 0.0 && args.alpha < 1.0) {
+        return Err(InputError::new(format!(
+            "--alpha {} must lie between 0 and 1",
+            args.alpha
+        )));
+    }
+    if !args.min_cpk.is_finite() {
+        return Err(InputError::new("--min-cpk must be a number"));
+    }
+    let subgroups = match (&args.subgroup_size, &args.subgroup) {
+        (Some(n), _) if *n < 2 => {
+            return Err(InputError::new(format!(
+                "--subgroup-size {n} must be at least 2"
+            )))
+        }
+        (Some(n), _) => Subgrouping::Size(*n),
+        (None, Some(col)) => Subgrouping::Column(col.clone()),
+        (None, None) => Subgrouping::Individuals,
+    };
+    let within = match args.within {
+        WithinArg::Range => WithinMethod::Range,
+        WithinArg::Sd => WithinMethod::Sd,
+        WithinArg::Pooled => WithinMethod::Pooled,
+    };
+    Ok(StudySettings {
+        by: args.by.clone(),
+        order: args.order.clone(),
+        subgroups,
+        options: CapabilityOptions {
+            within,
+            confidence: args.confidence,
+        },
+        min_cpk: args.min_cpk,
+        alpha: args.alpha,
+    })
+}

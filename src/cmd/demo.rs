@@ -1,0 +1,116 @@
+//! `capstack demo`: the whole job on the shipped sample scenario.
+
+use super::Outcome;
+use crate::cli::DemoArgs;
+use crate::error::InputError;
+use crate::intake::{self, ReadOptions};
+use crate::measure::{build_model, load_stack_data};
+use crate::output::capability::CapabilityReport;
+use crate::output::plan::PlanReport;
+use crate::output::stack::StackReport;
+use crate::output::Render;
+use crate::stack::analytic::safety_factor_table;
+use crate::stack::file::read_stack;
+use crate::study::{study, StudySettings};
+use std::path::Path;
+
+/// The data files and spec sheets of the scenario, by supplier.
+const SUPPLIERS: [(&str, &str); 4] = [
+    ("northfield_housing.csv", "northfield_specs.csv"),
+    ("kestrel_bearings.csv", "kestrel_specs.csv"),
+    ("orrin_spacers.tsv", "orrin_specs.csv"),
+    ("talvik_hubs.csv", "talvik_specs.csv"),
+];
+
+pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
+    let data_dir = args.out.join("data");
+    crate::sample::write_scenario(&data_dir).map_err(|e| {
+        InputError::new(format!(
+            "{}: cannot write the sample data: {e}",
+            data_dir.display()
+        ))
+    })?;
+    let mut written = Vec::new();
+    let path = |name: &str| data_dir.join(name).display().to_string();
+    let files: Vec<String> = SUPPLIERS.iter().map(|(d, _)| path(d)).collect();
+    let sheets: Vec<String> = SUPPLIERS.iter().map(|(_, s)| path(s)).collect();
+    let sheet = intake::read_spec_sheets(&sheets)?;
+    let data = intake::read_files(&files, &ReadOptions::default(), &sheet)?;
+    let specs = intake::merge_specs(&sheet, &data.embedded_specs)?;
+    let features = study(&data, &specs, &StudySettings::default())?;
+    let capability = CapabilityReport {
+        features,
+        audit: data.audit.clone(),
+        confidence: 0.95,
+    };
+    write(
+        &args.out,
+        "capability.txt",
+        &capability.table(false),
+        &mut written,
+    )?;
+    write(
+        &args.out,
+        "capability.json",
+        &pretty(&capability.json()),
+        &mut written,
+    )?;
+    write(&args.out, "capability.csv", &capability.csv(), &mut written)?;
+    let by_supplier_lot = StudySettings {
+        by: Some("lot".into()),
+        ..StudySettings::default()
+    };
+    let by_lot = CapabilityReport {
+        features: study(&data, &specs, &by_supplier_lot)?,
+        audit: data.audit.clone(),
+        confidence: 0.95,
+    };
+    write(
+        &args.out,
+        "capability_by_lot.txt",
+        &by_lot.table(false),
+        &mut written,
+    )?;
+
+    let stack = read_stack(&data_dir.join("end_play.toml"))?;
+    let stack_data = load_stack_data(&stack)?;
+    let model = build_model(&stack, &stack_data)?;
+    let report = StackReport::new(&model);
+    write(&args.out, "stack.txt", &report.table(false), &mut written)?;
+    write(
+        &args.out,
+        "stack.json",
+        &pretty(&report.json()),
+        &mut written,
+    )?;
+    let plan = PlanReport {
+        plan: crate::stack::plan::plan(&model, 100.0, 1.33, 0.95),
+        safety_factors: safety_factor_table(),
+    };
+    write(&args.out, "plan.txt", &plan.table(false), &mut written)?;
+    write(&args.out, "plan.json", &pretty(&plan.json()), &mut written)?;
+
+    print!(
+        "{}",
+        report.table(std::io::IsTerminal::is_terminal(&std::io::stdout()))
+    );
+    println!("\nsample data: {}", data_dir.display());
+    for w in written {
+        println!("wrote {w}");
+    }
+    Ok(Outcome::Done)
+}
+
+fn pretty(v: &serde_json::Value) -> String {
+    let mut s = serde_json::to_string_pretty(v).unwrap_or_default();
+    s.push('\n');
+    s
+}
+
+fn write(dir: &Path, name: &str, text: &str, written: &mut Vec<String>) -> Result<(), InputError> {
+    let p = dir.join(name);
+    std::fs::write(&p, text)
+        .map_err(|e| InputError::new(format!("{}: cannot write: {e}", p.display())))?;
+    written.push(p.display().to_string());
+    Ok(())
+}

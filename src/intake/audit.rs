@@ -1,0 +1,324 @@
+//! The audit: every row and cell read is accounted for, and every value not used is listed
+//! with its file, line, column, text and reason.
+
+use super::{Dataset, Layout, SpecSet};
+use serde::Serialize;
+use std::collections::HashMap;
+
+/// A value that was read but not used.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Unused {
+    pub file: String,
+    pub line: u64,
+    pub column: String,
+    pub text: String,
+    pub reason: String,
+}
+
+/// A row that gave no value at all.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct RejectedRow {
+    pub file: String,
+    pub line: u64,
+    pub reason: String,
+}
+
+/// Something the engineer should know that did not stop a value being used.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct Issue {
+    pub kind: String,
+    pub feature: Option<String>,
+    pub file: Option<String>,
+    pub line: Option<u64>,
+    pub message: String,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct FileAudit {
+    pub file: String,
+    pub layout: Layout,
+    pub delimiter: Option<String>,
+    pub decimal_comma_used: bool,
+    #[serde(skip)]
+    pub decimal_comma: bool,
+    pub rows_read: u64,
+    pub rows_used: u64,
+    pub rows_rejected: u64,
+    pub blank_rows: u64,
+    pub cells_read: u64,
+    pub values_used: u64,
+    pub features: Vec<String>,
+    pub attributes: Vec<String>,
+}
+
+impl FileAudit {
+    pub fn new(path: &str, delimiter: u8, decimal_comma: bool) -> Self {
+        let name = match delimiter {
+            b'\t' => "tab".to_string(),
+            d => (d as char).to_string(),
+        };
+        Self {
+            file: path.to_string(),
+            layout: Layout::Wide,
+            delimiter: Some(name),
+            decimal_comma_used: false,
+            decimal_comma,
+            rows_read: 0,
+            rows_used: 0,
+            rows_rejected: 0,
+            blank_rows: 0,
+            cells_read: 0,
+            values_used: 0,
+            features: Vec::new(),
+            attributes: Vec::new(),
+        }
+    }
+}
+
+/// Per-feature counts after intake.
+#[derive(Debug, Clone, Serialize)]
+pub struct FeatureAudit {
+    pub feature: String,
+    pub values_used: u64,
+    pub unused: u64,
+    /// Distinct values, counted up to 5 (all that the coarse-data check needs).
+    pub distinct_values_at_least: u64,
+    /// The finest decimal step the values were written with: the gauge resolution as seen.
+    pub resolution: Option<f64>,
+}
+
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct Audit {
+    pub files: Vec<FileAudit>,
+    pub rows_read: u64,
+    pub rows_used: u64,
+    pub rows_rejected: u64,
+    pub cells_read: u64,
+    pub values_used: u64,
+    pub unused: Vec<Unused>,
+    pub rejected_rows: Vec<RejectedRow>,
+    pub warnings: Vec<Issue>,
+    pub by_feature: Vec<FeatureAudit>,
+}
+
+/// A value this many spec widths (or robust spreads) from the centre is a typing or export
+/// error, not a part: common practice, no source.
+pub const IMPLAUSIBLE_WIDTHS: f64 = 1000.0;
+/// Fewer resolution steps than this across the tolerance: the gauge cannot discriminate
+/// (the "ten to one" rule of gauge discrimination, common practice).
+pub const MIN_RESOLUTION_STEPS: f64 = 10.0;
+/// Fewer distinct values than this: the data are too coarse for the statistics (common practice).
+pub const MIN_DISTINCT_VALUES: u64 = 5;
+
+/// Checks that need the whole table: implausible values (taken out and listed), duplicate
+/// parts, resolution and distinct values; then the totals.
+pub(super) fn check_dataset(data: &mut Dataset, specs: &SpecSet) {
+    use rayon::prelude::*;
+    // Per feature, in parallel: which rows are implausible, the resolution, distinct values.
+    let embedded = &data.embedded_specs;
+    let checks: Vec<FeatureCheck> = data
+        .features
+        .par_iter()
+        .map(|f| {
+            let spec = specs.get(&f.name).or_else(|| embedded.get(&f.name));
+            check_feature(&f.values, spec)
+        })
+        .collect();
+    for (fi, check) in checks.into_iter().enumerate() {
+        let name = data.features[fi].name.clone();
+        for &r in &check.implausible {
+            let v = data.features[fi].values[r];
+            data.features[fi].values[r] = f64::NAN;
+            let file = data.files[data.row_file[r] as usize].clone();
+            if let Some(fa) = data.audit.files.iter_mut().find(|f| f.file == file) {
+                fa.values_used -= 1;
+            }
+            data.audit.unused.push(Unused {
+                file,
+                line: data.row_line[r],
+                column: name.clone(),
+                text: format!("{v}"),
+                reason: "implausible".into(),
+            });
+        }
+        if check.distinct > 0 && check.distinct < MIN_DISTINCT_VALUES {
+            data.audit.warnings.push(Issue {
+                kind: "few distinct values".into(),
+                feature: Some(name.clone()),
+                file: None,
+                line: None,
+                message: format!(
+                    "only {} distinct values: the gauge or the rounding is too coarse for capability statistics",
+                    check.distinct
+                ),
+            });
+        }
+        let tol = specs
+            .get(&name)
+            .or_else(|| data.embedded_specs.get(&name))
+            .and_then(|s| s.tolerance_width());
+        if let (Some(step), Some(tol)) = (check.resolution, tol) {
+            if tol / step < MIN_RESOLUTION_STEPS {
+                data.audit.warnings.push(Issue {
+                    kind: "coarse resolution".into(),
+                    feature: Some(name.clone()),
+                    file: None,
+                    line: None,
+                    message: format!(
+                        "resolution {} gives only {:.1} steps across the tolerance {}; at least {} are common practice",
+                        trim_float(step),
+                        tol / step,
+                        trim_float(tol),
+                        MIN_RESOLUTION_STEPS
+                    ),
+                });
+            }
+        }
+        let used = data.features[fi]
+            .values
+            .iter()
+            .filter(|v| !v.is_nan())
+            .count() as u64;
+        let unused = data
+            .audit
+            .unused
+            .iter()
+            .filter(|u| u.column == name)
+            .count() as u64;
+        data.audit.by_feature.push(FeatureAudit {
+            feature: name,
+            values_used: used,
+            unused,
+            distinct_values_at_least: check.distinct,
+            resolution: check.resolution,
+        });
+    }
+    for (name, spec) in specs.iter() {
+        if data.feature(name).is_none() {
+            data.audit.warnings.push(Issue {
+                kind: "spec without data".into(),
+                feature: Some(name.clone()),
+                file: Some(spec.source_file.clone()),
+                line: spec.source_line,
+                message: format!("the spec sheet names '{name}', which no data file has"),
+            });
+        }
+    }
+    flag_duplicate_parts(data);
+    let a = &mut data.audit;
+    a.rows_read = a.files.iter().map(|f| f.rows_read).sum();
+    a.rows_used = a.files.iter().map(|f| f.rows_used).sum();
+    a.rows_rejected = a.files.iter().map(|f| f.rows_rejected).sum();
+    a.cells_read = a.files.iter().map(|f| f.cells_read).sum();
+    a.values_used = a.files.iter().map(|f| f.values_used).sum();
+}
+
+struct FeatureCheck {
+    implausible: Vec<usize>,
+    /// Distinct values, counted up to `MIN_DISTINCT_VALUES` (enough for the check).
+    distinct: u64,
+    resolution: Option<f64>,
+}
+
+fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
+    let (centre, width) = match spec.and_then(|s| s.centre_and_width()) {
+        Some(cw) => cw,
+        None => robust_centre_and_spread(values),
+    };
+    let implausible = if width > 0.0 {
+        let limit = IMPLAUSIBLE_WIDTHS * width;
+        values
+            .iter()
+            .enumerate()
+            .filter(|(_, v)| (*v - centre).abs() > limit)
+            .map(|(r, _)| r)
+            .collect()
+    } else {
+        Vec::new()
+    };
+    let mut seen: Vec<f64> = Vec::new();
+    let mut decimals = 0u32;
+    for (r, &v) in values.iter().enumerate() {
+        if v.is_nan() || implausible.binary_search(&r).is_ok() {
+            continue;
+        }
+        if (seen.len() as u64) < MIN_DISTINCT_VALUES && !seen.contains(&v) {
+            seen.push(v);
+        }
+        decimals = decimals.max(decimal_places(v));
+    }
+    let resolution = (!seen.is_empty()).then(|| 10f64.powi(-(decimals as i32)));
+    FeatureCheck {
+        implausible,
+        distinct: seen.len() as u64,
+        resolution,
+    }
+}
+
+/// Decimal places a value was written with (up to 9): the resolution of the gauge as seen.
+fn decimal_places(v: f64) -> u32 {
+    let mut scaled = v.abs();
+    for k in 0..10 {
+        let tol = 1e-9 * scaled.max(1.0);
+        if (scaled - scaled.round()).abs() <= tol {
+            return k;
+        }
+        scaled *= 10.0;
+    }
+    9
+}
+
+fn flag_duplicate_parts(data: &mut Dataset) {
+    if data.part_ids.is_empty() {
+        return;
+    }
+    let mut first_seen: HashMap<&str, usize> = HashMap::with_capacity(data.part_ids.len());
+    let mut dups = Vec::new();
+    for (r, id) in data.part_ids.iter().enumerate() {
+        if id.is_empty() {
+            continue;
+        }
+        if let Some(&first) = first_seen.get(id.as_str()) {
+            dups.push((r, first));
+        } else {
+            first_seen.insert(id, r);
+        }
+    }
+    for (r, first) in dups {
+        let file = data.files[data.row_file[r] as usize].clone();
+        let first_file = &data.files[data.row_file[first] as usize];
+        data.audit.warnings.push(Issue {
+            kind: "duplicate part".into(),
+            feature: None,
+            file: Some(file),
+            line: Some(data.row_line[r]),
+            message: format!(
+                "part '{}' was already seen at {}:{}; both rows are used",
+                data.part_ids[r], first_file, data.row_line[first]
+            ),
+        });
+    }
+}
+
+/// Median and a robust spread (the interquartile range) for features without a spec.
+fn robust_centre_and_spread(values: &[f64]) -> (f64, f64) {
+    // A strided sample is plenty for a check at a thousand spreads.
+    let stride = (values.len() / 20_000).max(1);
+    let mut v: Vec<f64> = values
+        .iter()
+        .step_by(stride)
+        .copied()
+        .filter(|x| !x.is_nan())
+        .collect();
+    if v.len() < 4 {
+        return (0.0, 0.0);
+    }
+    v.sort_unstable_by(f64::total_cmp);
+    let q = |p: f64| v[((v.len() - 1) as f64 * p).round() as usize];
+    (q(0.5), q(0.75) - q(0.25))
+}
+
+fn trim_float(v: f64) -> String {
+    let s = format!("{v:.6}");
+    s.trim_end_matches('0').trim_end_matches('.').to_string()
+}

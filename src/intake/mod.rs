@@ -1,0 +1,508 @@
+//! Reading inspection data: wide and long layouts, delimiters, decimal commas, Parquet,
+//! spec sheets, and the audit that accounts for every row and cell read.
+//!
+//! Everything is read into one [`Dataset`]: a table of parts (rows) by features (columns of
+//! `f64`, `NaN` where a part has no usable value), text attributes for grouping and ordering,
+//! and an [`Audit`] listing every value that was not used and why.
+
+mod audit;
+mod cells;
+mod delimited;
+mod long;
+mod parquet;
+mod specs;
+
+pub use audit::{Audit, FileAudit, Issue, RejectedRow, Unused};
+pub use specs::{read_spec_sheet, read_spec_sheets, Spec, SpecSet};
+
+use crate::error::{InputError, Result};
+use std::collections::HashMap;
+use std::path::Path;
+
+/// How the rows of a file are laid out.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Layout {
+    Auto,
+    /// One row per part, one column per feature.
+    Wide,
+    /// One row per measurement: part, feature, value.
+    Long,
+}
+
+/// What the user told us about the files; validated once before reading.
+#[derive(Debug, Clone)]
+pub struct ReadOptions {
+    pub layout: Layout,
+    pub id_col: Option<String>,
+    pub part_col: String,
+    pub feature_col: String,
+    pub value_col: String,
+    /// Columns forced to be text attributes even when they look numeric.
+    pub text_cols: Vec<String>,
+    /// Restrict the features to these (all numeric columns when `None`).
+    pub features: Option<Vec<String>>,
+}
+
+impl Default for ReadOptions {
+    fn default() -> Self {
+        Self {
+            layout: Layout::Auto,
+            id_col: None,
+            part_col: "part".into(),
+            feature_col: "feature".into(),
+            value_col: "value".into(),
+            text_cols: Vec::new(),
+            features: None,
+        }
+    }
+}
+
+/// A text column, dictionary-encoded: one code per row, `u32::MAX` where the cell is absent.
+#[derive(Debug, Clone, Default)]
+pub struct TextColumn {
+    pub name: String,
+    pub levels: Vec<String>,
+    pub codes: Vec<u32>,
+    index: HashMap<String, u32>,
+}
+
+pub const NO_LEVEL: u32 = u32::MAX;
+
+impl TextColumn {
+    pub fn new(name: &str) -> Self {
+        Self {
+            name: name.to_string(),
+            ..Default::default()
+        }
+    }
+
+    pub fn push(&mut self, text: Option<&str>) {
+        let code = match text {
+            None => NO_LEVEL,
+            Some(t) => match self.index.get(t) {
+                Some(&c) => c,
+                None => {
+                    let c = self.levels.len() as u32;
+                    self.levels.push(t.to_string());
+                    self.index.insert(t.to_string(), c);
+                    c
+                }
+            },
+        };
+        self.codes.push(code);
+    }
+
+    pub fn pad_to(&mut self, rows: usize) {
+        self.codes.resize(rows, NO_LEVEL);
+    }
+
+    pub fn get(&self, row: usize) -> Option<&str> {
+        match self.codes.get(row) {
+            Some(&c) if c != NO_LEVEL => Some(&self.levels[c as usize]),
+            _ => None,
+        }
+    }
+}
+
+/// One feature: a value per part row, `NaN` where the part has none.
+#[derive(Debug, Clone)]
+pub struct FeatureColumn {
+    pub name: String,
+    pub values: Vec<f64>,
+}
+
+/// All inspection data of one run, as parts by features.
+#[derive(Debug, Clone, Default)]
+pub struct Dataset {
+    pub files: Vec<String>,
+    pub features: Vec<FeatureColumn>,
+    /// Text attributes (lot, cavity, supplier, date, …), plus `source_file`.
+    pub attributes: Vec<TextColumn>,
+    /// Part ids per row; empty when no file had an id column (the row number is the id).
+    pub part_ids: Vec<String>,
+    /// The file index and physical line of each part row (the first line, for long data).
+    pub row_file: Vec<u32>,
+    pub row_line: Vec<u64>,
+    /// Specs found inside long data (`nominal`, `lsl`, `usl` columns).
+    pub embedded_specs: SpecSet,
+    pub audit: Audit,
+}
+
+/// The attribute that tags each row with the file it came from.
+pub const SOURCE_FILE: &str = "source_file";
+
+impl Dataset {
+    pub fn rows(&self) -> usize {
+        self.row_line.len()
+    }
+
+    pub fn feature(&self, name: &str) -> Option<&FeatureColumn> {
+        self.features.iter().find(|f| f.name == name)
+    }
+
+    pub fn attribute(&self, name: &str) -> Option<&TextColumn> {
+        self.attributes.iter().find(|a| a.name == name)
+    }
+
+    /// The part id of a row: the id column where there is one, else the 1-based row number.
+    pub fn part_id(&self, row: usize) -> String {
+        match self.part_ids.get(row) {
+            Some(id) if !id.is_empty() => id.clone(),
+            _ => (row + 1).to_string(),
+        }
+    }
+
+    fn feature_index(&mut self, name: &str) -> usize {
+        if let Some(i) = self.features.iter().position(|f| f.name == name) {
+            return i;
+        }
+        self.features.push(FeatureColumn {
+            name: name.to_string(),
+            values: vec![f64::NAN; self.rows()],
+        });
+        self.features.len() - 1
+    }
+
+    fn attribute_index(&mut self, name: &str) -> usize {
+        if let Some(i) = self.attributes.iter().position(|a| a.name == name) {
+            return i;
+        }
+        let mut col = TextColumn::new(name);
+        col.pad_to(self.rows());
+        self.attributes.push(col);
+        self.attributes.len() - 1
+    }
+
+    /// Pads every column to the current row count (a file lacking a column contributes nothing).
+    fn pad_columns(&mut self) {
+        let rows = self.rows();
+        for f in &mut self.features {
+            f.values.resize(rows, f64::NAN);
+        }
+        for a in &mut self.attributes {
+            a.pad_to(rows);
+        }
+        if !self.part_ids.is_empty() {
+            self.part_ids.resize(rows, String::new());
+        }
+    }
+}
+
+/// Reads every data file into one dataset, then runs the audit checks that need the whole
+/// table and the specs (plausible range, resolution, distinct values, duplicate parts).
+pub fn read_files(paths: &[String], options: &ReadOptions, specs: &SpecSet) -> Result<Dataset> {
+    if paths.is_empty() {
+        return Err(InputError::new("no data file given"));
+    }
+    let mut data = Dataset::default();
+    for path in paths {
+        read_one(path, options, specs, &mut data)?;
+    }
+    if data.features.is_empty() {
+        return Err(InputError::new(format!(
+            "{}: no feature column found (a feature column holds mostly numbers; name features with --features or a spec sheet)",
+            paths.join(", ")
+        )));
+    }
+    if let Some(wanted) = &options.features {
+        for w in wanted {
+            if data.feature(w).is_none() {
+                return Err(InputError::new(format!(
+                    "--features names '{w}', which no data file has as a numeric column (features: {})",
+                    data.features.iter().map(|f| f.name.as_str()).collect::<Vec<_>>().join(", ")
+                )));
+            }
+        }
+    }
+    audit::check_dataset(&mut data, specs);
+    Ok(data)
+}
+
+fn read_one(path: &str, options: &ReadOptions, specs: &SpecSet, data: &mut Dataset) -> Result<()> {
+    let p = Path::new(path);
+    if !p.exists() {
+        return Err(InputError::new(format!("{path}: no such file")));
+    }
+    if p.is_dir() {
+        return Err(InputError::new(format!(
+            "{path}: is a directory, not a data file"
+        )));
+    }
+    let file_index = data.files.len() as u32;
+    data.files.push(path.to_string());
+    let is_parquet = p
+        .extension()
+        .is_some_and(|e| e.eq_ignore_ascii_case("parquet"));
+    // Cells whose text matters as written (ids, forced text, the long layout's keys).
+    let keep_text = |name: &str| {
+        options.id_col.as_deref() == Some(name)
+            || (options.id_col.is_none() && is_default_id(name))
+            || options.text_cols.iter().any(|t| t == name)
+            || name == options.part_col
+            || name == options.feature_col
+    };
+    let table = if is_parquet {
+        parquet::read_parquet(path, &keep_text)?
+    } else {
+        delimited::read_delimited(path, &keep_text)?
+    };
+    let layout = match options.layout {
+        Layout::Auto => {
+            let has = |c: &str| table.columns.iter().any(|h| h.name == c);
+            if has(&options.part_col) && has(&options.feature_col) && has(&options.value_col) {
+                Layout::Long
+            } else {
+                Layout::Wide
+            }
+        }
+        l => l,
+    };
+    match layout {
+        Layout::Long => long::add_long(path, file_index, table, options, data)?,
+        _ => add_wide(path, file_index, table, options, specs, data)?,
+    }
+    data.pad_columns();
+    Ok(())
+}
+
+/// A file's cells as read, before the columns are given roles.
+pub(crate) struct RawTable {
+    pub columns: Vec<RawColumn>,
+    /// Physical line of each data row.
+    pub lines: Vec<u64>,
+    pub file_audit: FileAudit,
+    pub rejected: Vec<RejectedRow>,
+    pub extra_cells: Vec<Unused>,
+}
+
+/// One column of a file: numbers where the cell parsed, and the cells that did not.
+pub(crate) struct RawColumn {
+    pub name: String,
+    /// Per row: the number, or NaN (see `bad`).
+    pub numbers: Vec<f64>,
+    /// Rows whose cell was not a finite number: (row, text, reason). Blank cells too.
+    pub bad: Vec<(usize, String, &'static str)>,
+    /// The raw text of each cell, kept only for columns that may be text (see `cells`).
+    pub text: Option<Vec<String>>,
+}
+
+impl RawColumn {
+    /// Non-blank cells that are not numbers count against "most cells are numbers".
+    pub fn is_mostly_numeric(&self) -> bool {
+        let non_numeric = self
+            .bad
+            .iter()
+            .filter(|b| b.2 == cells::NON_NUMERIC)
+            .count();
+        let numeric = self.numbers.len() - self.bad.len();
+        numeric > non_numeric
+    }
+
+    pub fn cell_text(&self, row: usize) -> Option<String> {
+        if let Some(t) = &self.text {
+            let s = t[row].trim();
+            return if s.is_empty() {
+                None
+            } else {
+                Some(s.to_string())
+            };
+        }
+        let v = self.numbers[row];
+        if v.is_nan() {
+            self.bad
+                .iter()
+                .find(|b| b.0 == row)
+                .map(|b| b.1.clone())
+                .filter(|s| !s.trim().is_empty())
+        } else {
+            Some(cells::format_number(v))
+        }
+    }
+}
+
+fn is_default_id(name: &str) -> bool {
+    ["part", "part_id", "serial", "id"]
+        .iter()
+        .any(|c| c.eq_ignore_ascii_case(name))
+}
+
+/// Wide layout: each row a part, each numeric column a feature, other columns text attributes.
+fn add_wide(
+    path: &str,
+    file_index: u32,
+    table: RawTable,
+    options: &ReadOptions,
+    specs: &SpecSet,
+    data: &mut Dataset,
+) -> Result<()> {
+    let RawTable {
+        columns,
+        lines,
+        mut file_audit,
+        rejected,
+        extra_cells,
+    } = table;
+    let id_col = match &options.id_col {
+        Some(name) => Some(
+            columns
+                .iter()
+                .position(|c| &c.name == name)
+                .ok_or_else(|| {
+                    InputError::new(format!(
+                        "{path}: --id names column '{name}', which is not in the header"
+                    ))
+                })?,
+        ),
+        None => columns.iter().position(|c| is_default_id(&c.name)),
+    };
+    let mut roles = Vec::with_capacity(columns.len());
+    for (i, col) in columns.iter().enumerate() {
+        let forced_text = options.text_cols.iter().any(|t| t == &col.name);
+        let named = specs.get(&col.name).is_some()
+            || options
+                .features
+                .as_ref()
+                .is_some_and(|f| f.contains(&col.name));
+        let role = if Some(i) == id_col {
+            Role::Id
+        } else if forced_text {
+            Role::Text
+        } else if named || col.is_mostly_numeric() {
+            match &options.features {
+                Some(f) if !f.contains(&col.name) => Role::Skipped,
+                _ => Role::Feature,
+            }
+        } else {
+            Role::Text
+        };
+        roles.push(role);
+    }
+    if !roles.contains(&Role::Feature) {
+        let any_numeric = columns
+            .iter()
+            .zip(&roles)
+            .any(|(c, r)| *r != Role::Id && c.is_mostly_numeric());
+        let hint = if any_numeric {
+            " (--features or --text left none)"
+        } else {
+            ""
+        };
+        return Err(InputError::new(format!(
+            "{path}: no feature column: no column holds mostly numbers{hint}"
+        )));
+    }
+
+    let first_row = data.rows();
+    let rows = lines.len();
+    // Rows with no usable feature value are rejected (they still count as read).
+    let mut row_has_value = vec![false; rows];
+    let mut unused = Vec::new();
+    for (col, role) in columns.iter().zip(&roles) {
+        if *role != Role::Feature {
+            continue;
+        }
+        for (r, v) in col.numbers.iter().enumerate() {
+            if !v.is_nan() {
+                row_has_value[r] = true;
+            }
+        }
+    }
+    let mut rejected = rejected;
+    for (r, has) in row_has_value.iter().enumerate() {
+        if !has {
+            rejected.push(RejectedRow {
+                file: path.to_string(),
+                line: lines[r],
+                reason: "no usable feature value".into(),
+            });
+        }
+    }
+
+    data.row_line.extend(lines.iter().copied());
+    data.row_file.extend(std::iter::repeat_n(file_index, rows));
+    let src = data.attribute_index(SOURCE_FILE);
+    for _ in 0..rows {
+        data.attributes[src].push(Some(path));
+    }
+    for (col, role) in columns.into_iter().zip(roles) {
+        match role {
+            Role::Feature => {
+                let fi = data.feature_index(&col.name);
+                let values = &mut data.features[fi].values;
+                values.resize(first_row, f64::NAN);
+                file_audit.cells_read += rows as u64;
+                file_audit.values_used += (rows - col.bad.len()) as u64;
+                for (r, text, reason) in &col.bad {
+                    unused.push(Unused {
+                        file: path.to_string(),
+                        line: lines[*r],
+                        column: col.name.clone(),
+                        text: text.clone(),
+                        reason: (*reason).to_string(),
+                    });
+                }
+                values.extend_from_slice(&col.numbers);
+                file_audit.features.push(col.name);
+            }
+            Role::Text | Role::Id => {
+                let is_id = role == Role::Id;
+                if is_id {
+                    if data.part_ids.len() < first_row {
+                        data.part_ids.resize(first_row, String::new());
+                    }
+                    for r in 0..rows {
+                        data.part_ids.push(col.cell_text(r).unwrap_or_default());
+                    }
+                } else {
+                    let ai = data.attribute_index(&col.name);
+                    for r in 0..rows {
+                        let t = col.cell_text(r);
+                        data.attributes[ai].push(t.as_deref());
+                    }
+                    file_audit.attributes.push(col.name);
+                }
+            }
+            Role::Skipped => {}
+        }
+    }
+    file_audit.layout = Layout::Wide;
+    file_audit.rows_read = rows as u64 + file_audit.blank_rows;
+    file_audit.rows_rejected = rejected.len() as u64;
+    file_audit.rows_used = file_audit.rows_read - file_audit.rows_rejected;
+    data.audit.unused.extend(unused);
+    data.audit.unused.extend(extra_cells);
+    data.audit.rejected_rows.extend(rejected);
+    data.audit.files.push(file_audit);
+    Ok(())
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Role {
+    Id,
+    Feature,
+    Text,
+    Skipped,
+}
+
+/// Specs for each feature: the spec sheet first, then specs embedded in long data. The two
+/// must agree where both speak of one feature.
+pub fn merge_specs(sheet: &SpecSet, embedded: &SpecSet) -> Result<SpecSet> {
+    let mut out = sheet.clone();
+    for (name, spec) in embedded.iter() {
+        match out.get(name) {
+            Some(existing) if !existing.same_limits(spec) => {
+                return Err(InputError::new(format!(
+                    "conflicting specs for feature '{name}': {} gives {} but {} gives {}",
+                    existing.source,
+                    existing.describe(),
+                    spec.source,
+                    spec.describe()
+                )));
+            }
+            Some(_) => {}
+            None => out.insert(name.clone(), spec.clone()),
+        }
+    }
+    Ok(out)
+}

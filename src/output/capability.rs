@@ -1,0 +1,209 @@
+//! The capability result as a table, CSV and JSON.
+
+use super::table::{Cell, Table};
+use super::{csv_field, csv_num, num, ppm, Render};
+use crate::intake::Audit;
+use crate::study::FeatureResult;
+use serde::Serialize;
+
+#[derive(Debug, Serialize)]
+pub struct CapabilityReport {
+    pub features: Vec<FeatureResult>,
+    pub audit: Audit,
+    pub confidence: f64,
+}
+
+/// The CSV columns, in order; stable names for pipelines.
+const CSV_COLUMNS: &[&str] = &[
+    "feature",
+    "group",
+    "n",
+    "missing",
+    "unit",
+    "nominal",
+    "lsl",
+    "usl",
+    "mean",
+    "sd_overall",
+    "sd_within",
+    "sigma_within_method",
+    "min",
+    "max",
+    "skewness",
+    "kurtosis",
+    "cp",
+    "cpl",
+    "cpu",
+    "cpk",
+    "pp",
+    "ppl",
+    "ppu",
+    "ppk",
+    "cpm",
+    "cp_lower",
+    "cpk_lower",
+    "pp_lower",
+    "ppk_lower",
+    "ppm_observed",
+    "ppm_expected_within",
+    "ppm_expected_overall",
+    "ad_a2",
+    "ad_a2_adjusted",
+    "ad_p",
+    "sw_w",
+    "sw_p",
+    "flags",
+];
+
+fn group_text(f: &FeatureResult) -> String {
+    f.group
+        .as_ref()
+        .map(|g| {
+            g.iter()
+                .map(|(k, v)| format!("{k}={v}"))
+                .collect::<Vec<_>>()
+                .join(";")
+        })
+        .unwrap_or_default()
+}
+
+impl Render for CapabilityReport {
+    fn table(&self, colour: bool) -> String {
+        let grouped = self.features.iter().any(|f| f.group.is_some());
+        let mut headers = vec!["feature"];
+        if grouped {
+            headers.push("group");
+        }
+        let lower = format!("Cpk{:.0}%lo", self.confidence * 100.0);
+        let plower = format!("Ppk{:.0}%lo", self.confidence * 100.0);
+        headers.extend([
+            "n",
+            "LSL",
+            "USL",
+            "mean",
+            "sd within",
+            "sd overall",
+            "Cp",
+            "Cpk",
+            &lower,
+            "Pp",
+            "Ppk",
+            &plower,
+            "ppm exp",
+            "AD p",
+            "SW p",
+        ]);
+        let mut t = Table::new(&headers);
+        if grouped {
+            t.left.push(1);
+        }
+        for f in &self.features {
+            let c = &f.capability;
+            let cpk_bad = f.flags.iter().any(|x| x == "cpk");
+            let normal_bad = f.flags.iter().any(|x| x == "normality");
+            let mut row: Vec<Cell> = vec![Cell::flagged(
+                f.feature.clone(),
+                f.flags.iter().any(|x| x == "resolution"),
+            )];
+            if grouped {
+                row.push(group_text(f).into());
+            }
+            row.extend([
+                c.n.to_string().into(),
+                num(f.lsl, 6).into(),
+                num(f.usl, 6).into(),
+                num(c.mean, 6).into(),
+                num(c.sd_within, 3).into(),
+                num(c.sd_overall, 3).into(),
+                num(c.cp, 3).into(),
+                Cell::flagged(num(c.cpk, 3), cpk_bad),
+                num(c.cpk_lower, 3).into(),
+                num(c.pp, 3).into(),
+                num(c.ppk, 3).into(),
+                num(c.ppk_lower, 3).into(),
+                ppm(c.ppm_expected_overall).into(),
+                Cell::flagged(num(c.anderson_darling.map(|a| a.p), 2), normal_bad),
+                Cell::flagged(num(c.shapiro_wilk.map(|s| s.p), 2), normal_bad),
+            ]);
+            t.push(row);
+        }
+        let mut out = t.render(colour);
+        let a = &self.audit;
+        out.push_str(&format!(
+            "\n{} rows read, {} used, {} rejected; {} values used, {} not used (see --format json for the list)\n",
+            a.rows_read, a.rows_used, a.rows_rejected, a.values_used, a.unused.len()
+        ));
+        for w in &a.warnings {
+            let place = match (&w.file, w.line) {
+                (Some(f), Some(l)) => format!(" ({f}:{l})"),
+                (Some(f), None) => format!(" ({f})"),
+                _ => String::new(),
+            };
+            let feat = w
+                .feature
+                .as_ref()
+                .map(|f| format!("{f}: "))
+                .unwrap_or_default();
+            out.push_str(&format!("note: {}{}{place}\n", feat, w.message));
+        }
+        if self.features.iter().any(|f| !f.flags.is_empty()) {
+            out.push_str("! marks a Cpk below the minimum, a rejected normality test, or a gauge too coarse for the tolerance\n");
+        }
+        out
+    }
+
+    fn csv(&self) -> String {
+        let mut out = CSV_COLUMNS.join(",");
+        out.push('\n');
+        for f in &self.features {
+            let c = &f.capability;
+            let fields = [
+                csv_field(&f.feature),
+                csv_field(&group_text(f)),
+                c.n.to_string(),
+                f.missing.to_string(),
+                csv_field(f.unit.as_deref().unwrap_or("")),
+                csv_num(f.nominal),
+                csv_num(f.lsl),
+                csv_num(f.usl),
+                csv_num(c.mean),
+                csv_num(c.sd_overall),
+                csv_num(c.sd_within),
+                c.sigma_within_method.name().to_string(),
+                csv_num(c.min),
+                csv_num(c.max),
+                csv_num(c.skewness),
+                csv_num(c.kurtosis),
+                csv_num(c.cp),
+                csv_num(c.cpl),
+                csv_num(c.cpu),
+                csv_num(c.cpk),
+                csv_num(c.pp),
+                csv_num(c.ppl),
+                csv_num(c.ppu),
+                csv_num(c.ppk),
+                csv_num(c.cpm),
+                csv_num(c.cp_lower),
+                csv_num(c.cpk_lower),
+                csv_num(c.pp_lower),
+                csv_num(c.ppk_lower),
+                csv_num(c.ppm_observed),
+                csv_num(c.ppm_expected_within),
+                csv_num(c.ppm_expected_overall),
+                csv_num(c.anderson_darling.map(|a| a.a2)),
+                csv_num(c.anderson_darling.map(|a| a.a2_adjusted)),
+                csv_num(c.anderson_darling.map(|a| a.p)),
+                csv_num(c.shapiro_wilk.map(|s| s.w)),
+                csv_num(c.shapiro_wilk.map(|s| s.p)),
+                csv_field(&f.flags.join(";")),
+            ];
+            out.push_str(&fields.join(","));
+            out.push('\n');
+        }
+        out
+    }
+
+    fn json(&self) -> serde_json::Value {
+        serde_json::to_value(self).unwrap_or(serde_json::Value::Null)
+    }
+}

@@ -1,0 +1,211 @@
+//! The stack forecast as a table, CSV and JSON.
+
+use super::table::{Cell, Table};
+use super::{csv_field, csv_num, num, ppm, Render};
+use crate::stack::analytic::{
+    measured, rss, safety_factor_table, worst_case, Measured, Range, Rss, SafetyRow,
+};
+use crate::stack::file::{Assumptions, Requirement};
+use crate::stack::model::StackModel;
+use crate::stack::verdict::{contributor_verdicts, verdict, ContributorVerdict, Verdict};
+use serde::Serialize;
+
+#[derive(Debug, Clone, Serialize)]
+pub struct StackReport {
+    pub requirement: Requirement,
+    pub assumptions: Assumptions,
+    pub nominal: f64,
+    pub worst_case: Range,
+    pub rss: Rss,
+    pub measured: Measured,
+    pub simulation: Option<serde_json::Value>,
+    pub contributors: Vec<ContributorVerdict>,
+    pub verdict: Verdict,
+    pub safety_factors: Vec<SafetyRow>,
+    pub cautions: &'static str,
+}
+
+/// Printed with every forecast: the numbers are estimates, not approvals.
+pub const CAUTION: &str = "Forecasts are statistical estimates from the parts measured; customer requirements, industry standards and qualified engineering review come first, above all for safety-relevant fits.";
+
+impl StackReport {
+    pub fn new(model: &StackModel) -> Self {
+        let rss = rss(model);
+        let measured = measured(model);
+        let contributors = contributor_verdicts(model);
+        let verdict = verdict(model, &rss, &measured, &contributors);
+        Self {
+            requirement: model.requirement.clone(),
+            assumptions: model.assumptions,
+            nominal: model
+                .contributors
+                .iter()
+                .map(|c| c.sensitivity * c.nominal)
+                .sum(),
+            worst_case: worst_case(model),
+            rss,
+            measured,
+            simulation: None,
+            contributors,
+            verdict,
+            safety_factors: safety_factor_table(),
+            cautions: CAUTION,
+        }
+    }
+}
+
+impl Render for StackReport {
+    fn table(&self, colour: bool) -> String {
+        let r = &self.requirement;
+        let unit = r
+            .unit
+            .as_deref()
+            .map(|u| format!(" {u}"))
+            .unwrap_or_default();
+        let mut out = format!(
+            "{}: LSL {}  USL {}{unit}   nominal {}   assumption: cp {}, safety factor {}\n\n",
+            r.name,
+            num(r.lsl, 6),
+            num(r.usl, 6),
+            num(Some(self.nominal), 6),
+            self.assumptions.cp,
+            self.assumptions.safety_factor
+        );
+        let mut t = Table::new(&[
+            "method",
+            "mean",
+            "sd",
+            "min",
+            "max",
+            "ppm below",
+            "ppm above",
+            "ppm total",
+        ]);
+        let wc = &self.worst_case;
+        t.push(vec![
+            "worst case".into(),
+            num(Some((wc.min + wc.max) / 2.0), 6).into(),
+            "-".into(),
+            num(Some(wc.min), 6).into(),
+            num(Some(wc.max), 6).into(),
+            "-".into(),
+            "-".into(),
+            "-".into(),
+        ]);
+        let s = &self.rss;
+        t.push(vec![
+            "RSS (assumed)".into(),
+            num(Some(s.mean), 6).into(),
+            num(Some(s.sd), 3).into(),
+            num(Some(s.min), 6).into(),
+            num(Some(s.max), 6).into(),
+            ppm(s.ppm_below).into(),
+            ppm(s.ppm_above).into(),
+            ppm(Some(s.ppm)).into(),
+        ]);
+        let m = &self.measured;
+        let worse = m.ppm > s.ppm;
+        t.push(vec![
+            "measured".into(),
+            num(Some(m.mean), 6).into(),
+            num(Some(m.sd), 3).into(),
+            num(Some(m.mean - 3.0 * m.sd), 6).into(),
+            num(Some(m.mean + 3.0 * m.sd), 6).into(),
+            ppm(m.ppm_below).into(),
+            ppm(m.ppm_above).into(),
+            Cell::flagged(ppm(Some(m.ppm)), worse),
+        ]);
+        out.push_str(&t.render(colour));
+        out.push_str("(measured min/max: mean ∓ 3 sd)\n\n");
+        let mut c = Table::new(&[
+            "contributor",
+            "a",
+            "n",
+            "assumed sd",
+            "measured sd",
+            "ratio",
+            "shift/T",
+            "Ppk",
+            "Ppk lo",
+            "AD p",
+            "var share",
+            "supports",
+        ]);
+        for v in &self.contributors {
+            c.push(vec![
+                v.name.clone().into(),
+                num(Some(v.sensitivity), 3).into(),
+                v.n.map_or("stated".to_string(), |n| n.to_string()).into(),
+                num(Some(v.assumed_sd), 3).into(),
+                num(Some(v.measured_sd), 3).into(),
+                Cell::flagged(format!("{:.2}", v.sd_ratio), v.sd_ratio > 1.0),
+                Cell::flagged(
+                    format!("{:+.2}", v.mean_shift_of_tolerance),
+                    v.reasons.iter().any(|r| r.starts_with("mean")),
+                ),
+                Cell::flagged(
+                    num(v.ppk, 3),
+                    v.ppk.is_some_and(|p| p < self.assumptions.cp),
+                ),
+                num(v.ppk_lower, 3).into(),
+                Cell::flagged(
+                    num(v.normality_p, 2),
+                    v.normality_p
+                        .is_some_and(|p| p < crate::stack::verdict::ALPHA),
+                ),
+                format!("{:.0} %", 100.0 * v.variance_share).into(),
+                Cell::flagged(
+                    if v.supports_assumption { "yes" } else { "no" },
+                    !v.supports_assumption,
+                ),
+            ]);
+        }
+        out.push_str(&c.render(colour));
+        for v in self.contributors.iter().filter(|v| !v.supports_assumption) {
+            out.push_str(&format!("  {}: {}\n", v.name, v.reasons.join("; ")));
+        }
+        out.push_str(&format!("\nverdict: {}\n", self.verdict.summary));
+        out.push_str(&format!("\n{CAUTION}\n"));
+        out
+    }
+
+    fn csv(&self) -> String {
+        let mut out = String::from("contributor,sensitivity,n,nominal,lower_limit,upper_limit,assumed_sd,measured_mean,measured_sd,sd_ratio,mean_shift,mean_shift_of_tolerance,ppk,ppk_lower,normality_p,variance_share,supports_assumption,reasons\n");
+        for v in &self.contributors {
+            let fields = [
+                csv_field(&v.name),
+                format!("{}", v.sensitivity),
+                v.n.map(|n| n.to_string()).unwrap_or_default(),
+                format!("{}", v.nominal),
+                format!("{}", v.lower_limit),
+                format!("{}", v.upper_limit),
+                format!("{}", v.assumed_sd),
+                format!("{}", v.measured_mean),
+                format!("{}", v.measured_sd),
+                format!("{}", v.sd_ratio),
+                format!("{}", v.mean_shift),
+                format!("{}", v.mean_shift_of_tolerance),
+                csv_num(v.ppk),
+                csv_num(v.ppk_lower),
+                csv_num(v.normality_p),
+                format!("{}", v.variance_share),
+                v.supports_assumption.to_string(),
+                csv_field(&v.reasons.join("; ")),
+            ];
+            out.push_str(&fields.join(","));
+            out.push('\n');
+        }
+        out
+    }
+
+    fn json(&self) -> serde_json::Value {
+        let mut v = serde_json::to_value(self).unwrap_or(serde_json::Value::Null);
+        // `simulation` appears only when a simulation was run.
+        if let Some(obj) = v.as_object_mut() {
+            if obj.get("simulation").is_some_and(|s| s.is_null()) {
+                obj.remove("simulation");
+            }
+        }
+        v
+    }
+}
