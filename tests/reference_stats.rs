@@ -103,6 +103,10 @@ fn normal_quantile_and_tails_match_scipy() {
         close(normal::quantile(p), z, 1e-13, &format!("norm.ppf({p})"));
     }
     assert_eq!(normal::quantile(0.5), 0.0);
+    // scipy 1.17.1 special.erfc, across the switch from series to continued fraction.
+    for (x, e) in [(-3.0, 1.9999779095030015), (-1.0, 1.8427007929497148), (0.1, 0.8875370839817152), (1.0, 0.15729920705028516), (2.4, 0.0006885138966450789), (2.6, 0.000236034416529349), (4.0, 1.541725790028002e-08), (6.0, 2.1519736712498913e-17), (10.0, 2.0884875837625446e-45), (20.0, 5.395865611607901e-176)] {
+        close(normal::erfc(x), e, 2e-14, &format!("erfc({x})"));
+    }
     for (k, sf) in [
         (3.0, 0.0013498980316300933),
         (4.5, 3.3976731247300535e-06),
@@ -135,7 +139,12 @@ fn normal_tail_ppm_table_matches_the_reference_sheet() {
     // cpk_ppm.csv: a centred process at Cpk c rejects 2Φ(−3c)·1e6; with a 1.5σ shift,
     // Φ(−3c − 1.5) + Φ(−3c + 1.5).
     for row in &table("cpk_ppm.csv")[1..] {
-        let c: f64 = row[0].parse().unwrap();
+        // The rows 1.33333 and 1.66667 stand for 4/3 and 5/3 (their ppm are the exact fractions').
+        let c = match row[0].as_str() {
+            "1.33333" => 4.0 / 3.0,
+            "1.66667" => 5.0 / 3.0,
+            v => v.parse().unwrap(),
+        };
         let lim = Limits {
             nominal: Some(0.0),
             lsl: Some(-3.0 * c),
