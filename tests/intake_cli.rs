@@ -11,18 +11,37 @@ fn capstack() -> Command {
 }
 
 fn json_of(dir: &std::path::Path, args: &[&str]) -> Value {
-    let out = capstack().current_dir(dir).args(["capability", "--format", "json"]).args(args).output().unwrap();
-    assert!(out.status.success(), "stderr: {}", String::from_utf8_lossy(&out.stderr));
+    let out = capstack()
+        .current_dir(dir)
+        .args(["capability", "--format", "json"])
+        .args(args)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "stderr: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     serde_json::from_slice(&out.stdout).unwrap()
 }
 
 fn feature<'a>(v: &'a Value, name: &str) -> &'a Value {
-    v["features"].as_array().unwrap().iter().find(|f| f["feature"] == name).unwrap_or_else(|| panic!("no feature {name}"))
+    v["features"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["feature"] == name)
+        .unwrap_or_else(|| panic!("no feature {name}"))
 }
 
 fn error_of(dir: &std::path::Path, args: &[&str]) -> String {
     let out = capstack().current_dir(dir).args(args).output().unwrap();
-    assert_eq!(out.status.code(), Some(2), "stdout: {}", String::from_utf8_lossy(&out.stdout));
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "stdout: {}",
+        String::from_utf8_lossy(&out.stdout)
+    );
     let err = String::from_utf8_lossy(&out.stderr).to_string();
     assert!(!err.contains("panicked"), "{err}");
     err
@@ -52,7 +71,20 @@ fn reads_a_long_file_and_pivots_it_by_part() {
     // Renamed columns and an explicit layout.
     let renamed = "serial,char,reading\nP1,depth,10.01\nP2,depth,10.02\nP3,depth,10.00\n";
     let d = dir_with(&[("r.csv", renamed)]);
-    let v = json_of(d.path(), &["r.csv", "--layout", "long", "--part-col", "serial", "--feature-col", "char", "--value-col", "reading"]);
+    let v = json_of(
+        d.path(),
+        &[
+            "r.csv",
+            "--layout",
+            "long",
+            "--part-col",
+            "serial",
+            "--feature-col",
+            "char",
+            "--value-col",
+            "reading",
+        ],
+    );
     assert_eq!(feature(&v, "depth")["n"], 3);
 }
 
@@ -66,8 +98,16 @@ fn detects_semicolon_tab_decimal_comma_bom_crlf_quotes_and_trailing_columns() {
         let v = json_of(d.path(), &[name]);
         let f = feature(&v, "depth [mm]");
         assert_eq!(f["n"], 3, "{name}");
-        assert!((f["mean"].as_f64().unwrap() - 10.006666666666666).abs() < 1e-12, "{name}");
-        assert_eq!(v["audit"]["unused"].as_array().unwrap().len(), 0, "{name}: {}", v["audit"]["unused"]);
+        assert!(
+            (f["mean"].as_f64().unwrap() - 10.006666666666666).abs() < 1e-12,
+            "{name}"
+        );
+        assert_eq!(
+            v["audit"]["unused"].as_array().unwrap().len(),
+            0,
+            "{name}: {}",
+            v["audit"]["unused"]
+        );
     }
 }
 
@@ -77,17 +117,41 @@ fn lists_every_unused_cell_with_file_line_column_text_and_reason() {
     let d = dir_with(&[("bad.csv", text)]);
     let v = json_of(d.path(), &["bad.csv"]);
     let unused = v["audit"]["unused"].as_array().unwrap();
-    let got: Vec<(u64, &str, &str)> = unused.iter().map(|u| (u["line"].as_u64().unwrap(), u["text"].as_str().unwrap(), u["reason"].as_str().unwrap())).collect();
+    let got: Vec<(u64, &str, &str)> = unused
+        .iter()
+        .map(|u| {
+            (
+                u["line"].as_u64().unwrap(),
+                u["text"].as_str().unwrap(),
+                u["reason"].as_str().unwrap(),
+            )
+        })
+        .collect();
     assert_eq!(
         got,
-        vec![(3, "", "blank"), (4, "abc", "non-numeric"), (5, "NaN", "non-finite"), (6, "inf", "non-finite"), (7, "1e999", "non-finite"), (8, "1,234.5", "non-numeric")]
+        vec![
+            (3, "", "blank"),
+            (4, "abc", "non-numeric"),
+            (5, "NaN", "non-finite"),
+            (6, "inf", "non-finite"),
+            (7, "1e999", "non-finite"),
+            (8, "1,234.5", "non-numeric")
+        ]
     );
-    assert!(unused.iter().all(|u| u["file"] == "bad.csv" && u["column"] == "depth"));
+    assert!(unused
+        .iter()
+        .all(|u| u["file"] == "bad.csv" && u["column"] == "depth"));
     assert_eq!(feature(&v, "depth")["n"], 3);
     // Counts add up: rows read = used + rejected; cells read = values used + unused.
     let a = &v["audit"];
-    assert_eq!(a["rows_read"].as_u64().unwrap(), a["rows_used"].as_u64().unwrap() + a["rows_rejected"].as_u64().unwrap());
-    assert_eq!(a["cells_read"].as_u64().unwrap(), a["values_used"].as_u64().unwrap() + unused.len() as u64);
+    assert_eq!(
+        a["rows_read"].as_u64().unwrap(),
+        a["rows_used"].as_u64().unwrap() + a["rows_rejected"].as_u64().unwrap()
+    );
+    assert_eq!(
+        a["cells_read"].as_u64().unwrap(),
+        a["values_used"].as_u64().unwrap() + unused.len() as u64
+    );
 }
 
 #[test]
@@ -96,8 +160,12 @@ fn ragged_rows_list_missing_cells_as_blank_and_extra_cells_as_extra() {
     let d = dir_with(&[("r.csv", text)]);
     let v = json_of(d.path(), &["r.csv"]);
     let unused = v["audit"]["unused"].as_array().unwrap();
-    assert!(unused.iter().any(|u| u["line"] == 3 && u["column"] == "b" && u["reason"] == "blank"));
-    assert!(unused.iter().any(|u| u["line"] == 4 && u["text"] == "99" && u["reason"] == "extra cell"));
+    assert!(unused
+        .iter()
+        .any(|u| u["line"] == 3 && u["column"] == "b" && u["reason"] == "blank"));
+    assert!(unused
+        .iter()
+        .any(|u| u["line"] == 4 && u["text"] == "99" && u["reason"] == "extra cell"));
 }
 
 #[test]
@@ -107,12 +175,26 @@ fn flags_duplicate_parts_implausible_values_and_coarse_resolution() {
     let d = dir_with(&[("d.csv", text), ("s.csv", specs)]);
     let v = json_of(d.path(), &["d.csv", "--specs", "s.csv"]);
     let warnings = v["audit"]["warnings"].as_array().unwrap();
-    assert!(warnings.iter().any(|w| w["kind"] == "duplicate part" && w["line"] == 4), "{warnings:?}");
+    assert!(
+        warnings
+            .iter()
+            .any(|w| w["kind"] == "duplicate part" && w["line"] == 4),
+        "{warnings:?}"
+    );
     // 0.01 resolution over a 0.04 tolerance: 4 steps, fewer than the 10 of common practice.
-    assert!(warnings.iter().any(|w| w["kind"] == "coarse resolution"), "{warnings:?}");
+    assert!(
+        warnings.iter().any(|w| w["kind"] == "coarse resolution"),
+        "{warnings:?}"
+    );
     let unused = v["audit"]["unused"].as_array().unwrap();
-    assert!(unused.iter().any(|u| u["line"] == 5 && u["reason"] == "implausible"));
-    assert_eq!(feature(&v, "depth")["n"], 5, "duplicates are used, the implausible value is not");
+    assert!(unused
+        .iter()
+        .any(|u| u["line"] == 5 && u["reason"] == "implausible"));
+    assert_eq!(
+        feature(&v, "depth")["n"],
+        5,
+        "duplicates are used, the implausible value is not"
+    );
 }
 
 #[test]
@@ -120,7 +202,11 @@ fn flags_features_with_fewer_than_five_distinct_values() {
     let text = "part,depth\nP1,10.0\nP2,10.1\nP3,10.0\nP4,10.1\nP5,10.0\nP6,10.2\n";
     let d = dir_with(&[("d.csv", text)]);
     let v = json_of(d.path(), &["d.csv"]);
-    assert!(v["audit"]["warnings"].as_array().unwrap().iter().any(|w| w["kind"] == "few distinct values"));
+    assert!(v["audit"]["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|w| w["kind"] == "few distinct values"));
 }
 
 #[test]
@@ -131,8 +217,22 @@ fn stacks_several_files_matched_by_column_name_and_tags_the_source() {
     let v = json_of(d.path(), &["a.csv", "b.csv"]);
     assert_eq!(feature(&v, "depth")["n"], 5);
     assert_eq!(feature(&v, "width")["n"], 3);
-    assert_eq!(feature(&v, "width")["missing"], 0, "a feature absent from a file contributes nothing from it");
-    let by = json_of(d.path(), &["a.csv", "b.csv", "--by", "source_file", "--features", "depth"]);
+    assert_eq!(
+        feature(&v, "width")["missing"],
+        0,
+        "a feature absent from a file contributes nothing from it"
+    );
+    let by = json_of(
+        d.path(),
+        &[
+            "a.csv",
+            "b.csv",
+            "--by",
+            "source_file",
+            "--features",
+            "depth",
+        ],
+    );
     assert_eq!(by["features"].as_array().unwrap().len(), 2);
 }
 
@@ -142,7 +242,9 @@ fn reads_parquet_files() {
     let d = tempfile::tempdir().unwrap();
     let mut df = df!("part" => ["P1", "P2", "P3", "P4"], "depth" => [Some(10.01), Some(10.02), None, Some(10.0)], "lot" => ["A", "A", "B", "B"]).unwrap();
     let path = d.path().join("p.parquet");
-    ParquetWriter::new(std::fs::File::create(&path).unwrap()).finish(&mut df).unwrap();
+    ParquetWriter::new(std::fs::File::create(&path).unwrap())
+        .finish(&mut df)
+        .unwrap();
     let v = json_of(d.path(), &["p.parquet"]);
     assert_eq!(feature(&v, "depth")["n"], 3);
     let unused = v["audit"]["unused"].as_array().unwrap();
@@ -157,7 +259,12 @@ fn understands_every_spec_form() {
     let specs = "feature,nominal,lsl,usl,tol,lower_dev,upper_dev,unit\na,10,9.9,10.1,,,,mm\nb,5,,,0.5,,,mm\nc,2,,,,0.1,0.2,mm\nd,1,,1.5,,,,mm\ne,,0,,,,,mm\n";
     let d = dir_with(&[("d.csv", data), ("s.csv", specs)]);
     let v = json_of(d.path(), &["d.csv", "--specs", "s.csv"]);
-    let lim = |f: &str| (feature(&v, f)["lsl"].as_f64(), feature(&v, f)["usl"].as_f64());
+    let lim = |f: &str| {
+        (
+            feature(&v, f)["lsl"].as_f64(),
+            feature(&v, f)["usl"].as_f64(),
+        )
+    };
     assert_eq!(lim("a"), (Some(9.9), Some(10.1)));
     assert_eq!(lim("b"), (Some(4.5), Some(5.5)));
     // 2 +0.2/+0.1: lsl = nominal + lower_dev, usl = nominal + upper_dev.
@@ -181,8 +288,23 @@ fn text_and_features_options_shape_the_columns() {
     let text = "part,lot,depth,width\nP1,101,10.01,5.0\nP2,101,10.02,5.1\nP3,102,10.00,5.2\n";
     let d = dir_with(&[("d.csv", text)]);
     let v = json_of(d.path(), &["d.csv", "--text", "lot"]);
-    assert!(v["features"].as_array().unwrap().iter().all(|f| f["feature"] != "lot"));
-    let v = json_of(d.path(), &["d.csv", "--text", "lot", "--features", "width", "--by", "lot"]);
+    assert!(v["features"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .all(|f| f["feature"] != "lot"));
+    let v = json_of(
+        d.path(),
+        &[
+            "d.csv",
+            "--text",
+            "lot",
+            "--features",
+            "width",
+            "--by",
+            "lot",
+        ],
+    );
     let fs = v["features"].as_array().unwrap();
     assert_eq!(fs.len(), 2);
     assert_eq!(fs[0]["group"]["lot"], "101");
@@ -200,13 +322,18 @@ fn rejects_a_missing_file() {
 fn rejects_an_empty_file_and_a_header_without_rows() {
     let d = dir_with(&[("e.csv", ""), ("h.csv", "part,depth\n")]);
     assert!(error_of(d.path(), &["capability", "e.csv"]).contains("e.csv: the file is empty"));
-    assert!(error_of(d.path(), &["capability", "h.csv"]).contains("h.csv: the file has a header but no data rows"));
+    assert!(error_of(d.path(), &["capability", "h.csv"])
+        .contains("h.csv: the file has a header but no data rows"));
 }
 
 #[test]
 fn rejects_a_file_that_is_not_utf8_naming_the_line() {
     let d = tempfile::tempdir().unwrap();
-    std::fs::write(d.path().join("x.csv"), b"part,depth\nP1,10.0\nP2,10\xff.1\n").unwrap();
+    std::fs::write(
+        d.path().join("x.csv"),
+        b"part,depth\nP1,10.0\nP2,10\xff.1\n",
+    )
+    .unwrap();
     let e = error_of(d.path(), &["capability", "x.csv"]);
     assert!(e.contains("x.csv:3") && e.contains("UTF-8"), "{e}");
 }
@@ -226,21 +353,37 @@ fn rejects_duplicate_column_names() {
 
 #[test]
 fn rejects_spec_sheet_with_lsl_above_usl() {
-    let d = dir_with(&[("d.csv", WIDE), ("s.csv", "feature,nominal,lsl,usl\ndepth,10,10.1,9.9\n")]);
+    let d = dir_with(&[
+        ("d.csv", WIDE),
+        ("s.csv", "feature,nominal,lsl,usl\ndepth,10,10.1,9.9\n"),
+    ]);
     let e = error_of(d.path(), &["capability", "d.csv", "--specs", "s.csv"]);
     assert!(e.contains("s.csv:2") && e.contains("not below"), "{e}");
 }
 
 #[test]
 fn rejects_two_spec_forms_on_one_row() {
-    let d = dir_with(&[("d.csv", WIDE), ("s.csv", "feature,nominal,lsl,usl,tol\ndepth,10,9.9,10.1,0.1\n")]);
+    let d = dir_with(&[
+        ("d.csv", WIDE),
+        (
+            "s.csv",
+            "feature,nominal,lsl,usl,tol\ndepth,10,9.9,10.1,0.1\n",
+        ),
+    ]);
     let e = error_of(d.path(), &["capability", "d.csv", "--specs", "s.csv"]);
-    assert!(e.contains("s.csv:2") && e.contains("more than one form"), "{e}");
+    assert!(
+        e.contains("s.csv:2") && e.contains("more than one form"),
+        "{e}"
+    );
 }
 
 #[test]
 fn rejects_a_negative_tol_and_a_feature_given_twice() {
-    let d = dir_with(&[("d.csv", WIDE), ("s.csv", "feature,nominal,tol\ndepth,10,-0.1\n"), ("t.csv", "feature,nominal,tol\ndepth,10,0.1\ndepth,10,0.2\n")]);
+    let d = dir_with(&[
+        ("d.csv", WIDE),
+        ("s.csv", "feature,nominal,tol\ndepth,10,-0.1\n"),
+        ("t.csv", "feature,nominal,tol\ndepth,10,0.1\ndepth,10,0.2\n"),
+    ]);
     assert!(error_of(d.path(), &["capability", "d.csv", "--specs", "s.csv"]).contains("negative"));
     let e = error_of(d.path(), &["capability", "d.csv", "--specs", "t.csv"]);
     assert!(e.contains("t.csv:3") && e.contains("t.csv:2"), "{e}");
@@ -249,21 +392,34 @@ fn rejects_a_negative_tol_and_a_feature_given_twice() {
 #[test]
 fn rejects_conflicting_specs_from_two_sources_naming_both() {
     let long = "part,feature,value,lsl,usl\nP1,depth,10.01,9.9,10.1\nP2,depth,10.02,9.9,10.1\n";
-    let d = dir_with(&[("l.csv", long), ("s.csv", "feature,nominal,lsl,usl\ndepth,10,9.8,10.2\n")]);
+    let d = dir_with(&[
+        ("l.csv", long),
+        ("s.csv", "feature,nominal,lsl,usl\ndepth,10,9.8,10.2\n"),
+    ]);
     let e = error_of(d.path(), &["capability", "l.csv", "--specs", "s.csv"]);
     assert!(e.contains("s.csv:2") && e.contains("l.csv:2"), "{e}");
 }
 
 #[test]
 fn rejects_a_non_numeric_limit_naming_line_and_column() {
-    let d = dir_with(&[("d.csv", WIDE), ("s.csv", "feature,nominal,lsl,usl\ndepth,10,low,10.1\n")]);
+    let d = dir_with(&[
+        ("d.csv", WIDE),
+        ("s.csv", "feature,nominal,lsl,usl\ndepth,10,low,10.1\n"),
+    ]);
     let e = error_of(d.path(), &["capability", "d.csv", "--specs", "s.csv"]);
     assert!(e.contains("s.csv:2") && e.contains("column 'lsl'"), "{e}");
 }
 
 #[test]
 fn warns_about_a_spec_without_data() {
-    let d = dir_with(&[("d.csv", WIDE), ("s.csv", "feature,nominal,lsl,usl\nheight,10,9.9,10.1\n")]);
+    let d = dir_with(&[
+        ("d.csv", WIDE),
+        ("s.csv", "feature,nominal,lsl,usl\nheight,10,9.9,10.1\n"),
+    ]);
     let v = json_of(d.path(), &["d.csv", "--specs", "s.csv"]);
-    assert!(v["audit"]["warnings"].as_array().unwrap().iter().any(|w| w["kind"] == "spec without data"));
+    assert!(v["audit"]["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|w| w["kind"] == "spec without data"));
 }

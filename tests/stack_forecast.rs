@@ -36,8 +36,16 @@ fn model(contributors: Vec<ContributorModel>, lsl: f64, usl: f64, cp: f64, k: f6
         covariance[i][i] = c.sd * c.sd;
     }
     StackModel {
-        requirement: Requirement { name: "gap".into(), lsl: Some(lsl), usl: Some(usl), unit: None },
-        assumptions: Assumptions { cp, safety_factor: k },
+        requirement: Requirement {
+            name: "gap".into(),
+            lsl: Some(lsl),
+            usl: Some(usl),
+            unit: None,
+        },
+        assumptions: Assumptions {
+            cp,
+            safety_factor: k,
+        },
         contributors,
         covariance,
         paired: Vec::new(),
@@ -49,7 +57,11 @@ fn worst_case_and_rss_match_a_hand_calculation() {
     // gap = 10 (±0.3) − 4 (±0.2) − 5 (±0.1): by hand, middle 1, worst case ±0.6,
     // RSS sd = √(0.1² + (0.2/3)² + (0.1/3)²) = √(0.01 + 0.004444 + 0.001111) = 0.124722.
     let m = model(
-        vec![contributor("a", 1.0, 10.0, 0.3, 10.0, 0.1), contributor("b", -1.0, 4.0, 0.2, 4.0, 0.05), contributor("c", -1.0, 5.0, 0.1, 5.0, 0.03)],
+        vec![
+            contributor("a", 1.0, 10.0, 0.3, 10.0, 0.1),
+            contributor("b", -1.0, 4.0, 0.2, 4.0, 0.05),
+            contributor("c", -1.0, 5.0, 0.1, 5.0, 0.03),
+        ],
         0.5,
         1.5,
         1.0,
@@ -59,17 +71,34 @@ fn worst_case_and_rss_match_a_hand_calculation() {
     assert!((wc.min - 0.4).abs() < 1e-12 && (wc.max - 1.6).abs() < 1e-12);
     let r = rss(&m);
     close(r.mean, 1.0, 1e-12, "rss mean");
-    close(r.sd, (0.01f64 + 0.04 / 9.0 + 0.01 / 9.0).sqrt(), 1e-12, "rss sd");
+    close(
+        r.sd,
+        (0.01f64 + 0.04 / 9.0 + 0.01 / 9.0).sqrt(),
+        1e-12,
+        "rss sd",
+    );
     close(r.ppm, 2.0 * normal::sf(0.5 / r.sd) * 1e6, 1e-12, "rss ppm");
 }
 
 #[test]
 fn rss_limits_at_3_sigma_leave_2700_ppm_and_at_4_5_sigma_6_8_ppm() {
     // Common practice (no single source): ±3σ ≈ 2700 ppm; safety factor 1.5 → ±4.5σ ≈ 6.8 ppm.
-    let m = model(vec![contributor("a", 1.0, 0.0, 3.0, 0.0, 1.0)], -3.0, 3.0, 1.0, 1.0);
+    let m = model(
+        vec![contributor("a", 1.0, 0.0, 3.0, 0.0, 1.0)],
+        -3.0,
+        3.0,
+        1.0,
+        1.0,
+    );
     let r = rss(&m);
     assert!((r.ppm - 2700.0).abs() < 1.0, "{}", r.ppm);
-    let m15 = model(vec![contributor("a", 1.0, 0.0, 3.0, 0.0, 1.0)], -4.5, 4.5, 1.0, 1.5);
+    let m15 = model(
+        vec![contributor("a", 1.0, 0.0, 3.0, 0.0, 1.0)],
+        -4.5,
+        4.5,
+        1.0,
+        1.5,
+    );
     let r15 = rss(&m15);
     assert!((r15.max - 4.5).abs() < 1e-12, "limits at ±4.5σ");
     assert!((r15.ppm - 6.8).abs() < 0.01, "{}", r15.ppm);
@@ -81,19 +110,47 @@ fn rss_limits_at_3_sigma_leave_2700_ppm_and_at_4_5_sigma_6_8_ppm() {
 
 #[test]
 fn the_measured_forecast_of_normal_contributors_is_the_exact_normal_result() {
-    let m = model(vec![contributor("a", 1.0, 10.0, 0.3, 10.05, 0.08), contributor("b", -2.0, 4.5, 0.2, 4.49, 0.04)], 0.7, 1.3, 1.0, 1.0);
+    let m = model(
+        vec![
+            contributor("a", 1.0, 10.0, 0.3, 10.05, 0.08),
+            contributor("b", -2.0, 4.5, 0.2, 4.49, 0.04),
+        ],
+        0.7,
+        1.3,
+        1.0,
+        1.0,
+    );
     let f = measured(&m);
     let mean = 10.05 - 2.0 * 4.49;
     let sd = (0.08f64.powi(2) + 4.0 * 0.04f64.powi(2)).sqrt();
     close(f.mean, mean, 1e-12, "mean");
     close(f.sd, sd, 1e-12, "sd");
-    close(f.ppm_below.unwrap(), normal::cdf((0.7 - mean) / sd) * 1e6, 1e-12, "below");
-    close(f.ppm_above.unwrap(), normal::sf((1.3 - mean) / sd) * 1e6, 1e-12, "above");
+    close(
+        f.ppm_below.unwrap(),
+        normal::cdf((0.7 - mean) / sd) * 1e6,
+        1e-12,
+        "below",
+    );
+    close(
+        f.ppm_above.unwrap(),
+        normal::sf((1.3 - mean) / sd) * 1e6,
+        1e-12,
+        "above",
+    );
 }
 
 #[test]
 fn covariances_enter_the_assembly_variance_as_a_direct_computation_says() {
-    let mut m = model(vec![contributor("a", 1.0, 10.0, 0.3, 10.0, 0.1), contributor("b", 1.0, 5.0, 0.2, 5.0, 0.05)], 14.7, 15.3, 1.0, 1.0);
+    let mut m = model(
+        vec![
+            contributor("a", 1.0, 10.0, 0.3, 10.0, 0.1),
+            contributor("b", 1.0, 5.0, 0.2, 5.0, 0.05),
+        ],
+        14.7,
+        15.3,
+        1.0,
+        1.0,
+    );
     let r = 0.8;
     m.covariance[0][1] = r * 0.1 * 0.05;
     m.covariance[1][0] = r * 0.1 * 0.05;
@@ -104,7 +161,16 @@ fn covariances_enter_the_assembly_variance_as_a_direct_computation_says() {
 
 #[test]
 fn the_plan_finds_the_sd_that_meets_the_target_and_the_parts_to_demonstrate_a_cpk() {
-    let m = model(vec![contributor("a", 1.0, 10.0, 0.3, 10.0, 0.1), contributor("b", -1.0, 5.0, 0.2, 5.0, 0.05)], 4.7, 5.3, 1.0, 1.0);
+    let m = model(
+        vec![
+            contributor("a", 1.0, 10.0, 0.3, 10.0, 0.1),
+            contributor("b", -1.0, 5.0, 0.2, 5.0, 0.05),
+        ],
+        4.7,
+        5.3,
+        1.0,
+        1.0,
+    );
     let p = plan(&m, 100.0, 1.33, 0.95);
     let need = p.per_contributor[0].required_sd.unwrap();
     // Check: with that sd the forecast sits at the target.
@@ -121,8 +187,17 @@ fn the_plan_finds_the_sd_that_meets_the_target_and_the_parts_to_demonstrate_a_cp
 fn demo_stack() -> (tempfile::TempDir, Value) {
     let d = tempfile::tempdir().unwrap();
     capstack::sample::write_scenario(d.path()).unwrap();
-    let out = Command::cargo_bin("capstack").unwrap().current_dir(d.path()).args(["stack", "end_play.toml", "--format", "json"]).output().unwrap();
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let out = Command::cargo_bin("capstack")
+        .unwrap()
+        .current_dir(d.path())
+        .args(["stack", "end_play.toml", "--format", "json"])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let v = serde_json::from_slice(&out.stdout).unwrap();
     (d, v)
 }
@@ -130,24 +205,59 @@ fn demo_stack() -> (tempfile::TempDir, Value) {
 #[test]
 fn the_sample_scenario_tells_its_story() {
     let (_d, v) = demo_stack();
-    for key in ["requirement", "nominal", "worst_case", "rss", "measured", "contributors", "verdict"] {
+    for key in [
+        "requirement",
+        "nominal",
+        "worst_case",
+        "rss",
+        "measured",
+        "contributors",
+        "verdict",
+    ] {
         assert!(!v[key].is_null(), "{key}");
     }
-    let c = |name: &str| v["contributors"].as_array().unwrap().iter().find(|c| c["name"] == name).unwrap().clone();
+    let c = |name: &str| {
+        v["contributors"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|c| c["name"] == name)
+            .unwrap()
+            .clone()
+    };
     // The assumption is optimistic: the forecast is several times the assumed rate.
     assert_eq!(v["verdict"]["supports_assumption"], false);
     assert!(v["verdict"]["ppm_ratio"].as_f64().unwrap() > 3.0);
     // The spacer's mean shift is the biggest cause, and it is named in the summary.
     assert_eq!(c("spacer")["supports_assumption"], false);
-    assert!(c("spacer")["reasons"].as_array().unwrap().iter().any(|r| r.as_str().unwrap().starts_with("mean")));
+    assert!(c("spacer")["reasons"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|r| r.as_str().unwrap().starts_with("mean")));
     assert_eq!(v["verdict"]["causes"][0]["contributor"], "spacer");
-    assert!(v["verdict"]["summary"].as_str().unwrap().contains("spacer's mean shift"));
+    assert!(v["verdict"]["summary"]
+        .as_str()
+        .unwrap()
+        .contains("spacer's mean shift"));
     // Housing depth and groove position are measured on one part and correlated.
-    assert!(c("housing depth")["reasons"].as_array().unwrap().iter().any(|r| r.as_str().unwrap().contains("correlated with groove position")));
+    assert!(c("housing depth")["reasons"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|r| r
+            .as_str()
+            .unwrap()
+            .contains("correlated with groove position")));
     // The centred, capable bearing supports it; the stated one is marked stated.
     assert_eq!(c("bearing A")["supports_assumption"], true);
     assert!(c("bearing B")["n"].is_null());
-    let shares: f64 = v["contributors"].as_array().unwrap().iter().map(|c| c["variance_share"].as_f64().unwrap()).sum();
+    let shares: f64 = v["contributors"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c["variance_share"].as_f64().unwrap())
+        .sum();
     close(shares, 1.0, 1e-9, "variance shares sum to 1");
 }
 
@@ -155,16 +265,33 @@ fn the_sample_scenario_tells_its_story() {
 fn the_stack_table_shows_assumption_measured_and_worst_case_side_by_side() {
     let d = tempfile::tempdir().unwrap();
     capstack::sample::write_scenario(d.path()).unwrap();
-    let out = Command::cargo_bin("capstack").unwrap().current_dir(d.path()).args(["stack", "end_play.toml"]).output().unwrap();
+    let out = Command::cargo_bin("capstack")
+        .unwrap()
+        .current_dir(d.path())
+        .args(["stack", "end_play.toml"])
+        .output()
+        .unwrap();
     let text = String::from_utf8(out.stdout).unwrap();
-    for needle in ["worst case", "RSS (assumed)", "measured", "verdict:", "spacer", "statistical estimates"] {
+    for needle in [
+        "worst case",
+        "RSS (assumed)",
+        "measured",
+        "verdict:",
+        "spacer",
+        "statistical estimates",
+    ] {
         assert!(text.contains(needle), "{needle} in\n{text}");
     }
 }
 
 fn stack_error(files: &[(&str, &str)]) -> String {
     let d = dir_with(files);
-    let out = Command::cargo_bin("capstack").unwrap().current_dir(d.path()).args(["stack", "s.toml"]).output().unwrap();
+    let out = Command::cargo_bin("capstack")
+        .unwrap()
+        .current_dir(d.path())
+        .args(["stack", "s.toml"])
+        .output()
+        .unwrap();
     assert_eq!(out.status.code(), Some(2));
     let e = String::from_utf8_lossy(&out.stderr).to_string();
     assert!(!e.contains("panicked"));
@@ -180,7 +307,10 @@ fn stack_file_errors_name_the_file_the_contributor_and_the_key() {
     let e = stack_error(&[("s.toml", &format!("{REQ}[[contributor]]\nname = \"x\"\nsensitivity = 1.0\nnominal = 1.0\ntolerance = 0.1\nmean = 1.0\nsd = 0\n"))]);
     assert!(e.contains("contributor 'x', key 'sd'"), "{e}");
     let e = stack_error(&[("s.toml", &format!("{REQ}[[contributor]]\nname = \"x\"\nsensitivity = 1.0\nnominal = 1.0\ntolerance = 0.1\nmean = 1.0\nsd = 0.1\ndistribution = \"cauchy\"\n"))]);
-    assert!(e.contains("key 'distribution'") && e.contains("cauchy"), "{e}");
+    assert!(
+        e.contains("key 'distribution'") && e.contains("cauchy"),
+        "{e}"
+    );
     let e = stack_error(&[("s.toml", &format!("{REQ}[[contributor]]\nname = \"x\"\nsensitivity = 1.0\nnominal = 1.0\ntolerance = 0.1\ndata = \"missing.csv\"\nfeature = \"d\"\n"))]);
     assert!(e.contains("key 'data'") && e.contains("missing.csv"), "{e}");
     let e = stack_error(&[

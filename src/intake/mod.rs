@@ -422,6 +422,7 @@ fn add_wide(
     data.row_line.extend(lines.iter().copied());
     data.row_file.extend(std::iter::repeat_n(file_index, rows));
     let src = data.attribute_index(SOURCE_FILE);
+    data.attributes[src].pad_to(first_row);
     for _ in 0..rows {
         data.attributes[src].push(Some(path));
     }
@@ -456,6 +457,7 @@ fn add_wide(
                     }
                 } else {
                     let ai = data.attribute_index(&col.name);
+                    data.attributes[ai].pad_to(first_row);
                     for r in 0..rows {
                         let t = col.cell_text(r);
                         data.attributes[ai].push(t.as_deref());

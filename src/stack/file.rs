@@ -151,11 +151,20 @@ pub fn read_stack(path: &Path) -> Result<StackFile, InputError> {
 pub fn parse_stack(text: &str, path: &Path) -> Result<StackFile, InputError> {
     let shown = path.display().to_string();
     let raw: RawStack = toml::from_str(text).map_err(|e| {
+        // Name the line and show it, so the key is in the message.
         let line = e
             .span()
             .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1);
-        let msg = e.message().to_string();
-        InputError::at(&shown, line.map(|l| l as u64), None, msg)
+        let shown_line = line
+            .and_then(|l| text.lines().nth(l - 1))
+            .map(|t| format!("`{}`: ", t.trim()))
+            .unwrap_or_default();
+        InputError::at(
+            &shown,
+            line.map(|l| l as u64),
+            None,
+            format!("{shown_line}{}", e.message()),
+        )
     })?;
     let base = path.parent().unwrap_or(Path::new("."));
     let err = |what: String| InputError::new(format!("{shown}: {what}"));
