@@ -17,7 +17,7 @@ pub struct Cli {
 #[derive(Subcommand, Debug)]
 pub enum Command {
     /// Capability of each feature: mean, sigmas, Cp/Cpk/Pp/Ppk with bounds, reject rates, normality.
-    Capability(CapabilityArgs),
+    Capability(Box<CapabilityArgs>),
     /// Forecast the assembly reject rate from measured parts and set it against the design assumption.
     Stack(StackArgs),
     /// What each contributor would need to reach a target reject rate, and how many parts to measure.

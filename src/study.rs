@@ -44,6 +44,9 @@ pub enum Subgrouping {
     Column(String),
 }
 
+/// A group: the `--by` column and its value, or `None` for all rows.
+pub type Group = Option<BTreeMap<String, String>>;
+
 /// One feature (in one group): its spec, its capability, and what the engineer must act on.
 #[derive(Debug, Clone, Serialize)]
 pub struct FeatureResult {
@@ -106,7 +109,7 @@ pub fn study(
     settings: &StudySettings,
 ) -> Result<Vec<FeatureResult>, crate::error::InputError> {
     let order = row_order(data, settings.order.as_deref())?;
-    let groups: Vec<(Option<BTreeMap<String, String>>, Vec<usize>)> = match &settings.by {
+    let groups: Vec<(Group, Vec<usize>)> = match &settings.by {
         None => vec![(None, order.clone())],
         Some(col) => {
             let attr = data

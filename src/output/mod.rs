@@ -84,7 +84,7 @@ pub fn num(v: Option<f64>, digits: usize) -> String {
     match v {
         None => "-".to_string(),
         Some(x) if !x.is_finite() => "-".to_string(),
-        Some(x) if x == 0.0 => "0".to_string(),
+        Some(0.0) => "0".to_string(),
         Some(x) => {
             let mag = x.abs().log10().floor() as i32;
             if !(-5..=9).contains(&mag) {
@@ -102,7 +102,7 @@ pub fn ppm(v: Option<f64>) -> String {
         None => "-".into(),
         Some(x) if x >= 100.0 => format!("{x:.0}"),
         Some(x) if x >= 1.0 => format!("{x:.1}"),
-        Some(x) if x == 0.0 => "0".into(),
+        Some(0.0) => "0".into(),
         Some(x) => num(Some(x), 2),
     }
 }

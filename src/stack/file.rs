@@ -241,7 +241,7 @@ pub fn parse_stack(text: &str, path: &Path) -> Result<StackFile, InputError> {
                 (-t, t)
             }
             (None, Some(l), Some(u)) => {
-                if !(l < u) || !l.is_finite() || !u.is_finite() {
+                if l >= u || !l.is_finite() || !u.is_finite() {
                     return Err(cerr(
                         "lower_dev",
                         format!("lower_dev {l} must be below upper_dev {u}"),

@@ -69,6 +69,30 @@ impl StackModel {
         self.contributors.iter().map(|c| c.mean).collect()
     }
 
+    /// The covariance matrix with contributor i's sd multiplied by `scale` (its correlations kept).
+    pub fn with_sd_scaled(&self, i: usize, scale: f64) -> Vec<Vec<f64>> {
+        let mut cov = self.covariance.clone();
+        for row in cov.iter_mut() {
+            row[i] *= scale;
+        }
+        for v in cov[i].iter_mut() {
+            *v *= scale;
+        }
+        cov
+    }
+
+    /// The covariance matrix with contributor i uncorrelated with every other.
+    pub fn with_uncorrelated(&self, i: usize) -> Vec<Vec<f64>> {
+        let mut cov = self.covariance.clone();
+        let own = cov[i][i];
+        for row in cov.iter_mut() {
+            row[i] = 0.0;
+        }
+        cov[i].iter_mut().for_each(|v| *v = 0.0);
+        cov[i][i] = own;
+        cov
+    }
+
     /// Correlation of contributors i and j.
     pub fn correlation(&self, i: usize, j: usize) -> f64 {
         self.covariance[i][j] / (self.covariance[i][i] * self.covariance[j][j]).sqrt()
@@ -77,7 +101,7 @@ impl StackModel {
 
 /// Normal reject rates at the requirement, in ppm: (below, above, total).
 pub fn normal_rejects(mean: f64, sd: f64, req: &Requirement) -> (Option<f64>, Option<f64>, f64) {
-    if !(sd > 0.0) {
+    if sd.is_nan() || sd <= 0.0 {
         let below = req.lsl.map(|l| if mean < l { 1e6 } else { 0.0 });
         let above = req.usl.map(|u| if mean > u { 1e6 } else { 0.0 });
         return (below, above, below.unwrap_or(0.0) + above.unwrap_or(0.0));

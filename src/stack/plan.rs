@@ -68,12 +68,7 @@ pub struct Plan {
 }
 
 fn ppm_with_sd(model: &StackModel, i: usize, sd: f64) -> f64 {
-    let scale = sd / model.contributors[i].sd;
-    let mut cov = model.covariance.clone();
-    for j in 0..cov.len() {
-        cov[i][j] *= scale;
-        cov[j][i] *= scale;
-    }
+    let cov = model.with_sd_scaled(i, sd / model.contributors[i].sd);
     let (mean, s) = model.assembly(&model.means(), &cov);
     normal_rejects(mean, s, &model.requirement).2
 }

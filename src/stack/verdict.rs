@@ -209,25 +209,14 @@ pub fn causes(model: &StackModel) -> Vec<Cause> {
             "mean shift",
             base - ppm_with(model, &means, &model.covariance),
         ));
-        let scale = c.assumed_sd(cp) / c.sd;
-        let mut cov = model.covariance.clone();
-        for j in 0..cov.len() {
-            cov[i][j] *= scale;
-            cov[j][i] *= scale;
-        }
+        let cov = model.with_sd_scaled(i, c.assumed_sd(cp) / c.sd);
         out.push((
             c.name.clone(),
             "spread",
             base - ppm_with(model, &model.means(), &cov),
         ));
         if model.paired.iter().any(|&(a, b, _)| a == i || b == i) {
-            let mut cov = model.covariance.clone();
-            for j in 0..cov.len() {
-                if j != i {
-                    cov[i][j] = 0.0;
-                    cov[j][i] = 0.0;
-                }
-            }
+            let cov = model.with_uncorrelated(i);
             out.push((
                 c.name.clone(),
                 "correlation",

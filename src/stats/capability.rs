@@ -174,7 +174,7 @@ pub fn capability(
             super::normality::SHAPIRO_WILK_MAX_N
         ));
     }
-    if n >= 2 && n < 3 {
+    if n == 2 {
         notes.push("fewer than 3 values: no normality test".to_string());
     }
     let split = PpmSplit {
@@ -318,7 +318,7 @@ pub fn observed_ppm(x: &[f64], limits: &Limits) -> Ppm {
 
 /// The normal model's reject rate: Φ((LSL − μ)/σ) and 1 − Φ((USL − μ)/σ), in ppm.
 pub fn normal_ppm(mean: f64, sigma: f64, limits: &Limits) -> Ppm {
-    if !(sigma > 0.0) || !mean.is_finite() || !sigma.is_finite() {
+    if sigma.is_nan() || sigma <= 0.0 || !mean.is_finite() || !sigma.is_finite() {
         return Ppm::default();
     }
     let below = limits.lsl.map(|l| normal::cdf((l - mean) / sigma) * 1e6);

@@ -154,7 +154,7 @@ fn compute_weights(n: usize) -> Vec<f64> {
 /// p from D'Agostino & Stephens (1986), Goodness-of-Fit Techniques, Table 4.9, 0 above 13.
 pub fn anderson_darling(sorted: &[f64], mean: f64, sd: f64) -> Option<AndersonDarling> {
     let n = sorted.len();
-    if n < 3 || !(sd > 0.0) {
+    if n < 3 || sd.is_nan() || sd <= 0.0 {
         return None;
     }
     let nf = n as f64;

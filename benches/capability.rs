@@ -1,0 +1,76 @@
+//! The whole `capability` computation on 200,000 parts × 50 features (10⁷ values), both
+//! normality tests included, split into the read and the statistics after it.
+//! Compare with `benches/capability_reference.py` (pandas + scipy + statsmodels) on the same file.
+
+use capstack::intake::{read_files, ReadOptions, SpecSet};
+use capstack::study::{study, StudySettings};
+use criterion::{criterion_group, criterion_main, Criterion};
+use std::io::Write;
+
+fn file() -> std::path::PathBuf {
+    let path = std::env::temp_dir().join("capstack_bench_200000x50.csv");
+    if !path.exists() {
+        let mut f = std::io::BufWriter::new(std::fs::File::create(&path).unwrap());
+        let header: Vec<String> = (0..50).map(|j| format!("f{j}")).collect();
+        writeln!(f, "part,{}", header.join(",")).unwrap();
+        let mut state = 777u64;
+        for i in 0..200_000 {
+            write!(f, "P{i:07}").unwrap();
+            for _ in 0..50 {
+                // Sum of four uniforms: near-normal, deterministic.
+                let mut s = 0.0;
+                for _ in 0..4 {
+                    state = state
+                        .wrapping_mul(6364136223846793005)
+                        .wrapping_add(1442695040888963407);
+                    s += (state >> 11) as f64 / (1u64 << 53) as f64;
+                }
+                write!(f, ",{:.5}", 10.0 + (s - 2.0) * 0.01).unwrap();
+            }
+            writeln!(f).unwrap();
+        }
+    }
+    path
+}
+
+fn capability(c: &mut Criterion) {
+    let path = file().display().to_string();
+    let specs = {
+        let mut s = SpecSet::default();
+        for j in 0..50 {
+            s.insert(
+                format!("f{j}"),
+                capstack::intake::Spec {
+                    nominal: Some(10.0),
+                    lsl: Some(9.97),
+                    usl: Some(10.03),
+                    unit: None,
+                    source: String::new(),
+                    source_file: String::new(),
+                    source_line: None,
+                },
+            );
+        }
+        s
+    };
+    let data = read_files(std::slice::from_ref(&path), &ReadOptions::default(), &specs).unwrap();
+    let mut g = c.benchmark_group("capability_200000x50");
+    g.sample_size(10);
+    g.bench_function("read", |b| {
+        b.iter(|| read_files(std::slice::from_ref(&path), &ReadOptions::default(), &specs).unwrap())
+    });
+    g.bench_function("statistics", |b| {
+        b.iter(|| study(&data, &specs, &StudySettings::default()).unwrap())
+    });
+    g.bench_function("read_and_statistics", |b| {
+        b.iter(|| {
+            let d =
+                read_files(std::slice::from_ref(&path), &ReadOptions::default(), &specs).unwrap();
+            study(&d, &specs, &StudySettings::default()).unwrap()
+        })
+    });
+    g.finish();
+}
+
+criterion_group!(benches, capability);
+criterion_main!(benches);
