@@ -423,3 +423,18 @@ fn warns_about_a_spec_without_data() {
         .iter()
         .any(|w| w["kind"] == "spec without data"));
 }
+
+#[test]
+fn an_implausible_value_in_long_data_is_listed_at_its_own_line() {
+    let long = "part,feature,value\nP1,depth,10.01\nP1,width,5.0\nP2,depth,10.02\nP2,width,5000\nP3,depth,10.00\nP3,width,5.1\nP4,depth,10.01\nP4,width,5.05\n";
+    let d = dir_with(&[
+        ("l.csv", long),
+        ("s.csv", "feature,nominal,tol\nwidth,5,0.2\n"),
+    ]);
+    let v = json_of(d.path(), &["l.csv", "--specs", "s.csv"]);
+    let u = &v["audit"]["unused"][0];
+    assert_eq!(
+        (u["line"].as_u64(), u["reason"].as_str()),
+        (Some(5), Some("implausible"))
+    );
+}

@@ -135,7 +135,7 @@ pub(super) fn check_dataset(data: &mut Dataset, specs: &SpecSet) {
             }
             data.audit.unused.push(Unused {
                 file,
-                line: data.row_line[r],
+                line: data.value_line(fi, r),
                 column: name.clone(),
                 text: format!("{v}"),
                 reason: "implausible".into(),

@@ -194,6 +194,7 @@ pub(super) fn add_long(
             values.resize(row + 1, f64::NAN);
         }
         values[row] = columns[val_c].numbers[r];
+        data.cell_lines.insert((fi, row), line);
         file_audit.values_used += 1;
         used_rows += 1;
         if !file_audit.features.contains(&feature) {

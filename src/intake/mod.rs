@@ -124,6 +124,8 @@ pub struct Dataset {
     /// The file index and physical line of each part row (the first line, for long data).
     pub row_file: Vec<u32>,
     pub row_line: Vec<u64>,
+    /// The physical line of each long-layout value, by (feature, row); wide rows use `row_line`.
+    pub cell_lines: HashMap<(usize, usize), u64>,
     /// Specs found inside long data (`nominal`, `lsl`, `usl` columns).
     pub embedded_specs: SpecSet,
     pub audit: Audit,
@@ -151,6 +153,14 @@ impl Dataset {
             Some(id) if !id.is_empty() => id.clone(),
             _ => (row + 1).to_string(),
         }
+    }
+
+    /// The line a value was read from.
+    pub fn value_line(&self, feature: usize, row: usize) -> u64 {
+        self.cell_lines
+            .get(&(feature, row))
+            .copied()
+            .unwrap_or(self.row_line[row])
     }
 
     fn feature_index(&mut self, name: &str) -> usize {
@@ -310,11 +320,9 @@ impl RawColumn {
         }
         let v = self.numbers[row];
         if v.is_nan() {
-            self.bad
-                .iter()
-                .find(|b| b.0 == row)
-                .map(|b| b.1.clone())
-                .filter(|s| !s.trim().is_empty())
+            // `bad` is in row order.
+            let i = self.bad.binary_search_by_key(&row, |b| b.0).ok()?;
+            Some(self.bad[i].1.clone()).filter(|s| !s.trim().is_empty())
         } else {
             Some(cells::format_number(v))
         }

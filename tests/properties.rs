@@ -1,0 +1,72 @@
+//! Invariants of the statistics and the stack (proptest).
+
+use capstack::stack::analytic::{measured, rss, worst_case};
+use capstack::stack::file::{Assumptions, Requirement};
+use capstack::stack::model::{ContributorModel, StackModel};
+use capstack::stats::capability::{capability, CapabilityOptions, Limits};
+use proptest::prelude::*;
+
+fn sample() -> impl Strategy<Value = Vec<f64>> {
+    prop::collection::vec(-1.0f64..1.0, 5..60)
+}
+
+proptest! {
+    #[test]
+    fn cpk_never_exceeds_cp(x in sample(), width in 0.5f64..5.0, offset in -1.0f64..1.0) {
+        let lim = Limits { nominal: Some(offset), lsl: Some(offset - width), usl: Some(offset + width) };
+        let c = capability(&x, None, &lim, &CapabilityOptions::default());
+        if let (Some(cp), Some(cpk)) = (c.cp, c.cpk) { prop_assert!(cpk <= cp + 1e-12); }
+        if let (Some(pp), Some(ppk)) = (c.pp, c.ppk) { prop_assert!(ppk <= pp + 1e-12); }
+    }
+
+    #[test]
+    fn indices_do_not_change_with_units(x in sample(), a in 0.01f64..100.0, b in -1000.0f64..1000.0) {
+        // mm → inch is x/25.4: any positive scale and shift applied to data and limits alike.
+        let lim = Limits { nominal: Some(0.0), lsl: Some(-2.0), usl: Some(2.5) };
+        let y: Vec<f64> = x.iter().map(|v| a * v + b).collect();
+        let c1 = capability(&x, None, &lim, &CapabilityOptions::default());
+        let c2 = capability(&y, None, &lim.transformed(a, b), &CapabilityOptions::default());
+        for (p, q) in [(c1.cp, c2.cp), (c1.cpk, c2.cpk), (c1.pp, c2.pp), (c1.ppk, c2.ppk), (c1.cpm, c2.cpm)] {
+            prop_assert!((p.unwrap() - q.unwrap()).abs() <= 1e-7 * p.unwrap().abs().max(1.0));
+        }
+        let (w1, w2) = (c1.shapiro_wilk.unwrap().w, c2.shapiro_wilk.unwrap().w);
+        prop_assert!((w1 - w2).abs() < 1e-9);
+    }
+
+    #[test]
+    fn row_order_changes_only_the_within_sigma(x in sample(), seed in any::<u64>()) {
+        let lim = Limits { nominal: Some(0.0), lsl: Some(-2.0), usl: Some(2.0) };
+        let mut y = x.clone();
+        let mut s = seed | 1;
+        for i in (1..y.len()).rev() {
+            s ^= s << 13; s ^= s >> 7; s ^= s << 17;
+            y.swap(i, (s % (i as u64 + 1)) as usize);
+        }
+        let c1 = capability(&x, None, &lim, &CapabilityOptions::default());
+        let c2 = capability(&y, None, &lim, &CapabilityOptions::default());
+        prop_assert!((c1.mean.unwrap() - c2.mean.unwrap()).abs() < 1e-12);
+        prop_assert!((c1.sd_overall.unwrap() - c2.sd_overall.unwrap()).abs() < 1e-12);
+        prop_assert!((c1.ppk.unwrap() - c2.ppk.unwrap()).abs() < 1e-9);
+        prop_assert_eq!(c1.ppm_observed, c2.ppm_observed);
+        prop_assert!((c1.anderson_darling.unwrap().a2 - c2.anderson_darling.unwrap().a2).abs() < 1e-9);
+    }
+
+    #[test]
+    fn rss_half_width_never_exceeds_worst_case_and_mirroring_mirrors(parts in prop::collection::vec((-3.0f64..3.0, 0.01f64..1.0, 0.001f64..0.5), 1..8)) {
+        let contributors: Vec<ContributorModel> = parts.iter().enumerate().map(|(i, &(a, t, sd))| ContributorModel {
+            name: format!("c{i}"), sensitivity: if a.abs() < 0.1 { 1.0 } else { a }, nominal: 10.0, lower_limit: 10.0 - t, upper_limit: 10.0 + t,
+            mean: 10.0 + t / 3.0, sd, n: Some(30), distribution: None, ppk: None, ppk_lower: None, skewness: None, normality_p: None,
+        }).collect();
+        let n = contributors.len();
+        let mut covariance = vec![vec![0.0; n]; n];
+        for (i, c) in contributors.iter().enumerate() { covariance[i][i] = c.sd * c.sd; }
+        let m = StackModel { requirement: Requirement { name: "g".into(), lsl: Some(-1.0), usl: Some(1.0), unit: None }, assumptions: Assumptions { cp: 1.0, safety_factor: 1.0 }, contributors, covariance, paired: vec![] };
+        let wc = worst_case(&m);
+        let r = rss(&m);
+        prop_assert!(r.max - r.mean <= (wc.max - wc.min) / 2.0 + 1e-12);
+        let mut mirrored = m.clone();
+        for c in &mut mirrored.contributors { c.sensitivity = -c.sensitivity; }
+        let (f, g) = (measured(&m), measured(&mirrored));
+        prop_assert!((f.mean + g.mean).abs() < 1e-9 && (f.sd - g.sd).abs() < 1e-12);
+    }
+}
