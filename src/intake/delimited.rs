@@ -328,18 +328,24 @@ fn parse_block(
         .map(|(p, &before)| parse_piece(p, before, ctx))
         .collect();
     for r in results {
-        let piece = r?;
+        let mut piece = r?;
         let base = table.lines.len();
         table.lines.extend_from_slice(&piece.lines);
-        for (c, col) in table.columns.iter_mut().enumerate() {
-            col.numbers.extend_from_slice(&piece.numbers[c]);
-            col.bad.extend(
-                piece.bad[c]
-                    .iter()
-                    .map(|(r, t, why)| (r + base, t.clone(), *why)),
-            );
+        // Moved, not copied: a text column holds a string per row.
+        let bads = std::mem::take(&mut piece.bad);
+        let texts = std::mem::take(&mut piece.text);
+        for (((col, numbers), bad), text) in table
+            .columns
+            .iter_mut()
+            .zip(&piece.numbers)
+            .zip(bads)
+            .zip(texts)
+        {
+            col.numbers.extend_from_slice(numbers);
+            col.bad
+                .extend(bad.into_iter().map(|(r, t, why)| (r + base, t, why)));
             if let Some(t) = &mut col.text {
-                t.extend(piece.text[c].iter().cloned());
+                t.extend(text);
             }
         }
         for line in piece.blank_rows {
