@@ -6,6 +6,9 @@ Prints the wall time of the read and of the statistics.
 """
 import sys
 import time
+import warnings
+
+warnings.filterwarnings("ignore", message=".*N > 5000.*")
 
 import numpy as np
 import pandas as pd

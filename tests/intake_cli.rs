@@ -438,3 +438,53 @@ fn an_implausible_value_in_long_data_is_listed_at_its_own_line() {
         (Some(5), Some("implausible"))
     );
 }
+
+#[test]
+fn subgroups_and_the_gate_work_through_the_binary() {
+    // DS1 (reference sheet §3) as 5 subgroups of 4: R̄/d2(4) gives Cpk 0.9402948118786639.
+    let x = common::column("ds1_shaft_od.csv");
+    let mut text = String::from("part,od\n");
+    for (i, v) in x.iter().enumerate() {
+        text.push_str(&format!("P{i},{v}\n"));
+    }
+    let d = dir_with(&[
+        ("d.csv", &text),
+        ("s.csv", "feature,nominal,lsl,usl\nod,25,24.97,25.03\n"),
+    ]);
+    let v = json_of(
+        d.path(),
+        &[
+            "d.csv",
+            "--specs",
+            "s.csv",
+            "--subgroup-size",
+            "4",
+            "--within",
+            "range",
+        ],
+    );
+    let f = feature(&v, "od");
+    assert_eq!(f["sigma_within_method"], "range");
+    assert!((f["cpk"].as_f64().unwrap() - 0.9402948118786639).abs() < 1e-9);
+    // Cpk 0.94 is below the default minimum of 1.33: the gate fails with exit code 1.
+    let out = capstack()
+        .current_dir(d.path())
+        .args(["capability", "d.csv", "--specs", "s.csv", "--gate"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(1));
+    let out = capstack()
+        .current_dir(d.path())
+        .args([
+            "capability",
+            "d.csv",
+            "--specs",
+            "s.csv",
+            "--gate",
+            "--min-cpk",
+            "0.5",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0));
+}

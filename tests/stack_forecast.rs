@@ -321,3 +321,16 @@ fn stack_file_errors_name_the_file_the_contributor_and_the_key() {
     let e = stack_error(&[("s.toml", "[requirement]\nlsl = 0.3\nusl = 0.1\n[[contributor]]\nname = \"x\"\nsensitivity = 1.0\nnominal = 1.0\ntolerance = 0.1\nmean = 1.0\nsd = 0.1\n")]);
     assert!(e.contains("lsl 0.3 must be below usl 0.1"), "{e}");
 }
+
+#[test]
+fn contributions_are_sorted_by_variance_share() {
+    let (_d, v) = demo_stack();
+    let shares: Vec<f64> = v["contributions"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c["variance_share"].as_f64().unwrap())
+        .collect();
+    assert_eq!(shares.len(), 6);
+    assert!(shares.windows(2).all(|w| w[0] >= w[1]), "{shares:?}");
+}

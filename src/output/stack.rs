@@ -20,9 +20,20 @@ pub struct StackReport {
     pub measured: Measured,
     pub simulation: Option<serde_json::Value>,
     pub contributors: Vec<ContributorVerdict>,
+    /// The contributors by share of the assembly variance, largest first: where to act.
+    pub contributions: Vec<Contribution>,
     pub verdict: Verdict,
     pub safety_factors: Vec<SafetyRow>,
     pub cautions: &'static str,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct Contribution {
+    pub name: String,
+    pub variance_share: f64,
+    pub mean_shift_share: f64,
+    /// aᵢ(μᵢ − mᵢ): what it moves the assembly mean, in the assembly's unit.
+    pub mean_shift: f64,
 }
 
 /// Printed with every forecast: the numbers are estimates, not approvals.
@@ -34,6 +45,16 @@ impl StackReport {
         let measured = measured(model);
         let contributors = contributor_verdicts(model);
         let verdict = verdict(model, &rss, &measured, &contributors);
+        let mut contributions: Vec<Contribution> = contributors
+            .iter()
+            .map(|c| Contribution {
+                name: c.name.clone(),
+                variance_share: c.variance_share,
+                mean_shift_share: c.mean_shift_share,
+                mean_shift: c.sensitivity * c.mean_shift,
+            })
+            .collect();
+        contributions.sort_by(|a, b| b.variance_share.total_cmp(&a.variance_share));
         Self {
             requirement: model.requirement.clone(),
             assumptions: model.assumptions,
@@ -47,6 +68,7 @@ impl StackReport {
             measured,
             simulation: None,
             contributors,
+            contributions,
             verdict,
             safety_factors: safety_factor_table(),
             cautions: CAUTION,
@@ -164,6 +186,16 @@ impl Render for StackReport {
         for v in self.contributors.iter().filter(|v| !v.supports_assumption) {
             out.push_str(&format!("  {}: {}\n", v.name, v.reasons.join("; ")));
         }
+        let largest: Vec<String> = self
+            .contributions
+            .iter()
+            .take(3)
+            .map(|c| format!("{} {:.0} %", c.name, 100.0 * c.variance_share))
+            .collect();
+        out.push_str(&format!(
+            "\nlargest shares of the assembly variance: {}\n",
+            largest.join(", ")
+        ));
         out.push_str(&format!("\nverdict: {}\n", self.verdict.summary));
         out.push_str(&format!("\n{CAUTION}\n"));
         out
