@@ -334,3 +334,47 @@ fn contributions_are_sorted_by_variance_share() {
     assert_eq!(shares.len(), 6);
     assert!(shares.windows(2).all(|w| w[0] >= w[1]), "{shares:?}");
 }
+
+#[test]
+fn plan_through_the_binary_gives_needs_mean_correction_sample_sizes_and_the_safety_table() {
+    let d = tempfile::tempdir().unwrap();
+    capstack::sample::write_scenario(d.path()).unwrap();
+    let out = Command::cargo_bin("capstack")
+        .unwrap()
+        .current_dir(d.path())
+        .args([
+            "plan",
+            "end_play.toml",
+            "--target-ppm",
+            "100",
+            "--format",
+            "json",
+        ])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["per_contributor"].as_array().unwrap().len(), 6);
+    assert!(
+        v["allocation"]["sd_factor"].as_f64().unwrap() < 1.0,
+        "the forecast is above target: every sd must shrink"
+    );
+    assert_eq!(v["mean_correction"]["reachable"], true);
+    assert!(v["sample_sizes"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|s| s["parts"].is_u64()));
+    assert_eq!(v["safety_factors"].as_array().unwrap().len(), 10);
+    let bad = Command::cargo_bin("capstack")
+        .unwrap()
+        .current_dir(d.path())
+        .args(["plan", "end_play.toml", "--target-ppm", "-1"])
+        .output()
+        .unwrap();
+    assert_eq!(bad.status.code(), Some(2));
+}
