@@ -223,7 +223,23 @@ pub fn parts_to_demonstrate(observed: f64, wanted: f64, confidence: f64) -> Opti
     if observed <= wanted {
         return None;
     }
-    (2..=10_000_000usize)
-        .find(|&n| bissell_bound(observed, n, z).is_some_and(|b| b >= wanted))
-        .or(None)
+    // The bound grows with n, so the smallest n is found by doubling, then bisection.
+    let meets = |n: usize| bissell_bound(observed, n, z).is_some_and(|b| b >= wanted);
+    let mut hi = 2usize;
+    while !meets(hi) {
+        if hi > 1 << 40 {
+            return None;
+        }
+        hi *= 2;
+    }
+    let mut lo = hi / 2;
+    while lo + 1 < hi {
+        let mid = lo + (hi - lo) / 2;
+        if meets(mid) {
+            hi = mid;
+        } else {
+            lo = mid;
+        }
+    }
+    Some(hi)
 }
