@@ -131,9 +131,19 @@ pub struct StackArgs {
     /// Also simulate the assembly with this many draws.
     #[arg(long, value_name = "N")]
     pub samples: Option<u64>,
-    /// Seed of the simulation (a fixed default otherwise).
+    /// Seed of the simulation and of the forecast's bootstrap (a fixed default otherwise).
     #[arg(long, value_name = "S")]
     pub seed: Option<u64>,
+    /// Keep simulating until the 95 % interval is this tight relative to the estimate
+    /// (`10%` or `0.1`); starts from --samples (default 1,000,000).
+    #[arg(long, value_name = "P", value_parser = parse_fraction)]
+    pub precision: Option<f64>,
+    /// Most draws --precision may take.
+    #[arg(long, value_name = "N", default_value_t = 1_000_000_000)]
+    pub max_samples: u64,
+    /// Bootstrap replicates for the forecast's own uncertainty (0 to skip).
+    #[arg(long, value_name = "N", default_value_t = 1000)]
+    pub replicates: usize,
     /// Exit with code 1 when the measured parts do not support the design assumption.
     #[arg(long)]
     pub gate: bool,
@@ -163,4 +173,19 @@ pub struct DemoArgs {
     /// Where to write the demo outputs.
     #[arg(long, default_value = "capstack-demo")]
     pub out: PathBuf,
+}
+
+/// `10%`, `10 %` or `0.1`.
+fn parse_fraction(text: &str) -> Result<f64, String> {
+    let t = text.trim();
+    let value = match t.strip_suffix('%') {
+        Some(p) => p.trim().parse::<f64>().map(|v| v / 100.0),
+        None => t.parse::<f64>(),
+    }
+    .map_err(|_| format!("'{text}' is not a fraction (10% or 0.1)"))?;
+    if value > 0.0 && value < 1.0 {
+        Ok(value)
+    } else {
+        Err(format!("'{text}' must lie between 0 and 100 %"))
+    }
 }

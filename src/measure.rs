@@ -5,7 +5,7 @@
 use crate::error::InputError;
 use crate::intake::{self, Dataset, ReadOptions, SpecSet};
 use crate::stack::file::{Source, StackFile};
-use crate::stack::model::{ContributorModel, StackModel};
+use crate::stack::model::{ContributorModel, PartGroup, StackModel};
 use crate::stats::capability::{capability, CapabilityOptions, Limits};
 use crate::stats::moments::covariance;
 use std::collections::BTreeMap;
@@ -54,6 +54,7 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
             Source::Measured {
                 data: path,
                 feature,
+                sampling,
                 ..
             } => {
                 let (ds, specs) = &data.files[path];
@@ -105,6 +106,7 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
                     sd: cap.sd_overall.unwrap_or(0.0),
                     n: Some(cap.n),
                     distribution: None,
+                    sampling: Some(*sampling),
                     ppk: cap.ppk,
                     ppk_lower: cap.ppk_lower,
                     skewness: cap.skewness,
@@ -129,6 +131,7 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
                     sd: *sd,
                     n: None,
                     distribution: Some(*distribution),
+                    sampling: None,
                     ppk: Some(((hi - mean).min(mean - lo)) / (3.0 * sd)),
                     ppk_lower: None,
                     skewness: None,
@@ -163,11 +166,29 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
             }
         }
     }
+    let mut part_groups: Vec<PartGroup> = Vec::new();
+    for (i, col) in columns.iter().enumerate() {
+        let Some((path, fi)) = col else { continue };
+        let values = data.files[*path].0.features[*fi].values.clone();
+        let source = path.display().to_string();
+        match part_groups.iter_mut().find(|g| g.source == source) {
+            Some(g) => {
+                g.members.push(i);
+                g.columns.push(values);
+            }
+            None => part_groups.push(PartGroup {
+                source,
+                members: vec![i],
+                columns: vec![values],
+            }),
+        }
+    }
     Ok(StackModel {
         requirement: stack.requirement.clone(),
         assumptions: stack.assumptions,
         contributors,
         covariance: cov,
         paired,
+        part_groups,
     })
 }

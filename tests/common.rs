@@ -1,6 +1,8 @@
 //! Helpers shared by the integration tests.
 #![allow(dead_code)]
 
+use capstack::stack::file::{Assumptions, Requirement, Sampling};
+use capstack::stack::model::{ContributorModel, StackModel};
 use std::path::{Path, PathBuf};
 
 pub fn fixture(name: &str) -> PathBuf {
@@ -59,4 +61,70 @@ pub fn dir_with(files: &[(&str, &str)]) -> tempfile::TempDir {
         std::fs::write(dir.path().join(name), text).unwrap();
     }
     dir
+}
+
+/// A measured contributor with the given statistics (n = 50), its zone nominal ± t.
+pub fn contributor(
+    name: &str,
+    a: f64,
+    nominal: f64,
+    t: f64,
+    mean: f64,
+    sd: f64,
+) -> ContributorModel {
+    ContributorModel {
+        name: name.into(),
+        sensitivity: a,
+        nominal,
+        lower_limit: nominal - t,
+        upper_limit: nominal + t,
+        mean,
+        sd,
+        n: Some(50),
+        distribution: None,
+        sampling: Some(Sampling::Parts),
+        ppk: None,
+        ppk_lower: None,
+        skewness: None,
+        normality_p: None,
+    }
+}
+
+/// A stack of independent contributors with requirement [lsl, usl].
+pub fn model(
+    contributors: Vec<ContributorModel>,
+    lsl: f64,
+    usl: f64,
+    cp: f64,
+    k: f64,
+) -> StackModel {
+    let n = contributors.len();
+    let mut covariance = vec![vec![0.0; n]; n];
+    for (i, c) in contributors.iter().enumerate() {
+        covariance[i][i] = c.sd * c.sd;
+    }
+    StackModel {
+        requirement: Requirement {
+            name: "gap".into(),
+            lsl: Some(lsl),
+            usl: Some(usl),
+            unit: None,
+        },
+        assumptions: Assumptions {
+            cp,
+            safety_factor: k,
+        },
+        contributors,
+        covariance,
+        paired: Vec::new(),
+        part_groups: Vec::new(),
+    }
+}
+
+/// The sample scenario written to a temporary directory, and its stack file.
+pub fn demo_stack_file() -> (tempfile::TempDir, PathBuf) {
+    let d = tempfile::tempdir().unwrap();
+    capstack::sample::write_scenario(d.path()).unwrap();
+    let toml = d.path().join("end_play.toml");
+    (d, toml)
 }

@@ -55,12 +55,12 @@ proptest! {
     fn rss_half_width_never_exceeds_worst_case_and_mirroring_mirrors(parts in prop::collection::vec((-3.0f64..3.0, 0.01f64..1.0, 0.001f64..0.5), 1..8)) {
         let contributors: Vec<ContributorModel> = parts.iter().enumerate().map(|(i, &(a, t, sd))| ContributorModel {
             name: format!("c{i}"), sensitivity: if a.abs() < 0.1 { 1.0 } else { a }, nominal: 10.0, lower_limit: 10.0 - t, upper_limit: 10.0 + t,
-            mean: 10.0 + t / 3.0, sd, n: Some(30), distribution: None, ppk: None, ppk_lower: None, skewness: None, normality_p: None,
+            mean: 10.0 + t / 3.0, sd, n: Some(30), distribution: None, sampling: None, ppk: None, ppk_lower: None, skewness: None, normality_p: None,
         }).collect();
         let n = contributors.len();
         let mut covariance = vec![vec![0.0; n]; n];
         for (i, c) in contributors.iter().enumerate() { covariance[i][i] = c.sd * c.sd; }
-        let m = StackModel { requirement: Requirement { name: "g".into(), lsl: Some(-1.0), usl: Some(1.0), unit: None }, assumptions: Assumptions { cp: 1.0, safety_factor: 1.0 }, contributors, covariance, paired: vec![] };
+        let m = StackModel { requirement: Requirement { name: "g".into(), lsl: Some(-1.0), usl: Some(1.0), unit: None }, assumptions: Assumptions { cp: 1.0, safety_factor: 1.0 }, contributors, covariance, paired: vec![], part_groups: vec![] };
         let wc = worst_case(&m);
         let r = rss(&m);
         prop_assert!(r.max - r.mean <= (wc.max - wc.min) / 2.0 + 1e-12);

@@ -4,53 +4,10 @@
 mod common;
 use assert_cmd::Command;
 use capstack::stack::analytic::{measured, rss, safety_factor_table, worst_case};
-use capstack::stack::file::{Assumptions, Requirement};
-use capstack::stack::model::{ContributorModel, StackModel};
 use capstack::stack::plan::{parts_to_demonstrate, plan};
 use capstack::stats::normal;
 use common::*;
 use serde_json::Value;
-
-fn contributor(name: &str, a: f64, nominal: f64, t: f64, mean: f64, sd: f64) -> ContributorModel {
-    ContributorModel {
-        name: name.into(),
-        sensitivity: a,
-        nominal,
-        lower_limit: nominal - t,
-        upper_limit: nominal + t,
-        mean,
-        sd,
-        n: Some(50),
-        distribution: None,
-        ppk: None,
-        ppk_lower: None,
-        skewness: None,
-        normality_p: None,
-    }
-}
-
-fn model(contributors: Vec<ContributorModel>, lsl: f64, usl: f64, cp: f64, k: f64) -> StackModel {
-    let n = contributors.len();
-    let mut covariance = vec![vec![0.0; n]; n];
-    for (i, c) in contributors.iter().enumerate() {
-        covariance[i][i] = c.sd * c.sd;
-    }
-    StackModel {
-        requirement: Requirement {
-            name: "gap".into(),
-            lsl: Some(lsl),
-            usl: Some(usl),
-            unit: None,
-        },
-        assumptions: Assumptions {
-            cp,
-            safety_factor: k,
-        },
-        contributors,
-        covariance,
-        paired: Vec::new(),
-    }
-}
 
 #[test]
 fn worst_case_and_rss_match_a_hand_calculation() {

@@ -7,6 +7,9 @@ use crate::stack::analytic::{
 };
 use crate::stack::file::{Assumptions, Requirement};
 use crate::stack::model::StackModel;
+use crate::stack::simulate::Simulation;
+use crate::stack::tail::{tail_forecast, TailForecast};
+use crate::stack::uncertainty::ForecastUncertainty;
 use crate::stack::verdict::{contributor_verdicts, verdict, ContributorVerdict, Verdict};
 use serde::Serialize;
 
@@ -18,7 +21,11 @@ pub struct StackReport {
     pub worst_case: Range,
     pub rss: Rss,
     pub measured: Measured,
-    pub simulation: Option<serde_json::Value>,
+    pub simulation: Option<Simulation>,
+    /// Reject rates from the stated shapes without sampling noise.
+    pub exact_tail: TailForecast,
+    /// The bootstrap interval of the measured forecast (n parts measured).
+    pub forecast_uncertainty: Option<ForecastUncertainty>,
     pub contributors: Vec<ContributorVerdict>,
     /// The contributors by share of the assembly variance, largest first: where to act.
     pub contributions: Vec<Contribution>,
@@ -67,6 +74,8 @@ impl StackReport {
             rss,
             measured,
             simulation: None,
+            exact_tail: tail_forecast(model),
+            forecast_uncertainty: None,
             contributors,
             contributions,
             verdict,
@@ -137,8 +146,79 @@ impl Render for StackReport {
             ppm(m.ppm_above).into(),
             Cell::flagged(ppm(Some(m.ppm)), worse),
         ]);
+        let e = &self.exact_tail;
+        if e.method != "normal_closed_form" {
+            t.push(vec![
+                "stated shapes".into(),
+                "".into(),
+                "".into(),
+                "".into(),
+                "".into(),
+                ppm(e.rates.ppm_below).into(),
+                ppm(e.rates.ppm_above).into(),
+                ppm(Some(e.rates.ppm)).into(),
+            ]);
+        }
+        if let Some(sim) = &self.simulation {
+            t.push(vec![
+                "simulated".into(),
+                "".into(),
+                "".into(),
+                "".into(),
+                "".into(),
+                ppm(sim.ppm_below).into(),
+                ppm(sim.ppm_above).into(),
+                Cell::flagged(ppm(Some(sim.ppm)), sim.ppm > s.ppm),
+            ]);
+        }
         out.push_str(&t.render(colour));
-        out.push_str("(measured min/max: mean ∓ 3 sd)\n\n");
+        out.push_str("(measured min/max: mean ∓ 3 sd)\n");
+        if e.method != "normal_closed_form" {
+            out.push_str(&format!(
+                "stated shapes: {} not normal, by convolution (grid error {} ppm); saddlepoint {} ppm\n",
+                e.non_normal.join(", "),
+                ppm(Some(e.grid_error_ppm)),
+                ppm(e.saddlepoint.map(|s| s.ppm)),
+            ));
+        }
+        if let Some(sim) = &self.simulation {
+            let parts: Vec<String> = sim
+                .draws
+                .iter()
+                .map(|d| match d.parts {
+                    Some(n) => format!("{} from {n} parts", d.name),
+                    None => format!("{} {}", d.name, d.draw),
+                })
+                .collect();
+            out.push_str(&format!(
+                "simulated: {} draws, seed {}, {} rejects, 95 % interval ({}) {}-{} ppm; {}\n",
+                sim.samples,
+                sim.seed,
+                sim.rejects,
+                sim.interval,
+                ppm(Some(sim.ppm_low)),
+                ppm(Some(sim.ppm_high)),
+                parts.join(", ")
+            ));
+            if let Some(p) = &sim.precision {
+                if !p.reached {
+                    out.push_str(&format!(
+                        "  precision {:.0} % not reached within {} draws (achieved {})\n",
+                        100.0 * p.target,
+                        p.max_samples,
+                        p.achieved
+                            .map_or("none: no rejects".to_string(), |a| format!(
+                                "{:.0} %",
+                                100.0 * a
+                            ))
+                    ));
+                }
+            }
+        }
+        if let Some(u) = &self.forecast_uncertainty {
+            out.push_str(&format!("uncertainty: {}\n", u.statement));
+        }
+        out.push('\n');
         let mut c = Table::new(&[
             "contributor",
             "a",
@@ -234,8 +314,10 @@ impl Render for StackReport {
         let mut v = serde_json::to_value(self).unwrap_or(serde_json::Value::Null);
         // `simulation` appears only when a simulation was run.
         if let Some(obj) = v.as_object_mut() {
-            if obj.get("simulation").is_some_and(|s| s.is_null()) {
-                obj.remove("simulation");
+            for key in ["simulation", "forecast_uncertainty"] {
+                if obj.get(key).is_some_and(|s| s.is_null()) {
+                    obj.remove(key);
+                }
             }
         }
         v

@@ -60,6 +60,7 @@ struct RawContributor {
     mean: Option<f64>,
     sd: Option<f64>,
     distribution: Option<String>,
+    simulate: Option<String>,
 }
 
 /// The assembly characteristic and its limits.
@@ -87,6 +88,16 @@ pub enum Distribution {
     Triangular,
 }
 
+/// How the simulation draws a measured contributor.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Sampling {
+    /// Resample the measured parts (bootstrap); contributors from one file are drawn as one row.
+    Parts,
+    /// A normal distribution with the measured mean and sd, independent of the others.
+    Normal,
+}
+
 /// Where a contributor's statistics come from.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Source {
@@ -94,6 +105,7 @@ pub enum Source {
         data: PathBuf,
         feature: String,
         specs: Option<PathBuf>,
+        sampling: Sampling,
     },
     Stated {
         mean: f64,
@@ -293,10 +305,21 @@ pub fn parse_stack(text: &str, path: &Path) -> Result<StackFile, InputError> {
                         return Err(cerr("specs", format!("no such file: {}", s.display())));
                     }
                 }
+                let sampling = match c.simulate.as_deref().unwrap_or("parts") {
+                    "parts" => Sampling::Parts,
+                    "normal" => Sampling::Normal,
+                    other => {
+                        return Err(cerr(
+                            "simulate",
+                            format!("'{other}' is not one of parts, normal"),
+                        ))
+                    }
+                };
                 Source::Measured {
                     data,
                     feature,
                     specs,
+                    sampling,
                 }
             }
             (None, Some(mean), Some(sd)) => {
@@ -305,6 +328,13 @@ pub fn parse_stack(text: &str, path: &Path) -> Result<StackFile, InputError> {
                 }
                 if !(sd > 0.0 && sd.is_finite()) {
                     return Err(cerr("sd", format!("{sd} must be a positive number")));
+                }
+                if c.simulate.is_some() {
+                    return Err(cerr(
+                        "simulate",
+                        "a stated contributor is drawn from its stated distribution; remove simulate"
+                            .into(),
+                    ));
                 }
                 let distribution = match c.distribution.as_deref().unwrap_or("normal") {
                     "normal" => Distribution::Normal,

@@ -6,4 +6,7 @@ pub mod analytic;
 pub mod file;
 pub mod model;
 pub mod plan;
+pub mod simulate;
+pub mod tail;
+pub mod uncertainty;
 pub mod verdict;

@@ -1,7 +1,7 @@
 //! The stack as numbers: each contributor's sensitivity, tolerance zone and statistics, and the
 //! covariance between contributors. Built by `measure` from files; pure from here on.
 
-use super::file::{Assumptions, Distribution, Requirement};
+use super::file::{Assumptions, Distribution, Requirement, Sampling};
 use crate::stats::normal;
 use serde::Serialize;
 
@@ -19,6 +19,8 @@ pub struct ContributorModel {
     /// Parts measured; `None` for stated statistics.
     pub n: Option<usize>,
     pub distribution: Option<Distribution>,
+    /// How the simulation draws a measured contributor; `None` for stated statistics.
+    pub sampling: Option<Sampling>,
     pub ppk: Option<f64>,
     pub ppk_lower: Option<f64>,
     pub skewness: Option<f64>,
@@ -49,6 +51,29 @@ pub struct StackModel {
     pub covariance: Vec<Vec<f64>>,
     /// Pairs measured on the same parts: (i, j, parts in common).
     pub paired: Vec<(usize, usize, usize)>,
+    /// The measured parts, one group per data file, for resampling.
+    pub part_groups: Vec<PartGroup>,
+}
+
+/// The parts of one data file: for each member contributor its values, aligned part by part
+/// (NaN where that part lacks the feature).
+#[derive(Debug, Clone, PartialEq)]
+pub struct PartGroup {
+    pub source: String,
+    pub members: Vec<usize>,
+    pub columns: Vec<Vec<f64>>,
+}
+
+impl PartGroup {
+    pub fn parts(&self) -> usize {
+        self.columns.first().map_or(0, Vec::len)
+    }
+    /// Parts with at least one member measured.
+    pub fn measured_parts(&self) -> usize {
+        (0..self.parts())
+            .filter(|&r| self.columns.iter().any(|c| !c[r].is_nan()))
+            .count()
+    }
 }
 
 impl StackModel {
