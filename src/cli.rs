@@ -142,7 +142,7 @@ pub struct StackArgs {
     #[arg(long, value_name = "N", default_value_t = 1_000_000_000)]
     pub max_samples: u64,
     /// Bootstrap replicates for the forecast's own uncertainty (0 to skip).
-    #[arg(long, value_name = "N", default_value_t = 1000)]
+    #[arg(long, value_name = "N", default_value_t = crate::stack::uncertainty::DEFAULT_REPLICATES)]
     pub replicates: usize,
     /// Exit with code 1 when the measured parts do not support the design assumption.
     #[arg(long)]

@@ -7,10 +7,14 @@ use crate::intake::{self, ReadOptions};
 use crate::measure::{build_model, load_stack_data};
 use crate::output::capability::CapabilityReport;
 use crate::output::plan::PlanReport;
-use crate::output::stack::StackReport;
 use crate::output::Render;
 use crate::stack::analytic::safety_factor_table;
 use crate::stack::file::read_stack;
+use crate::stack::simulate::{SimulationSettings, DEFAULT_SEED};
+use crate::stack::uncertainty::DEFAULT_REPLICATES;
+
+/// Draws of the demo's simulation: enough for a tight interval at the scenario's ~1000 ppm.
+const DEMO_SAMPLES: u64 = 4_000_000;
 use crate::study::{study, StudySettings};
 use std::path::Path;
 
@@ -75,7 +79,14 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
     let stack = read_stack(&data_dir.join("end_play.toml"))?;
     let stack_data = load_stack_data(&stack)?;
     let model = build_model(&stack, &stack_data)?;
-    let report = StackReport::new(&model);
+    let simulation = SimulationSettings {
+        samples: DEMO_SAMPLES,
+        seed: DEFAULT_SEED,
+        precision: None,
+        max_samples: DEMO_SAMPLES,
+    };
+    let report =
+        super::stack::full_report(&model, Some(&simulation), DEFAULT_REPLICATES, DEFAULT_SEED);
     write(&args.out, "stack.txt", &report.table(false), &mut written)?;
     write(
         &args.out,

@@ -6,6 +6,7 @@ use crate::measure::{build_model, load_stack_data};
 use crate::output::stack::StackReport;
 use crate::output::{render, Sink};
 use crate::stack::file::read_stack;
+use crate::stack::model::StackModel;
 use crate::stack::simulate::{simulate, SimulationSettings, DEFAULT_SEED};
 use crate::stack::uncertainty::forecast_uncertainty;
 use std::io::IsTerminal;
@@ -20,27 +21,39 @@ pub fn run(args: &StackArgs) -> anyhow::Result<Outcome> {
     let data = load_stack_data(&stack)?;
     let model = build_model(&stack, &data)?;
     let seed = args.seed.unwrap_or(DEFAULT_SEED);
-    let mut report = StackReport::new(&model);
-    report.forecast_uncertainty = forecast_uncertainty(&model, args.replicates, seed);
-    if args.samples.is_some() || args.precision.is_some() {
-        let settings = SimulationSettings {
+    let simulation =
+        (args.samples.is_some() || args.precision.is_some()).then(|| SimulationSettings {
             samples: args.samples.unwrap_or(PRECISION_START),
             seed,
             precision: args.precision,
             max_samples: args.max_samples,
-        };
-        let mut bar = ProgressOnTerminal::new();
-        report.simulation = Some(simulate(&model, &settings, &mut |done, planned| {
-            bar.update(done, planned)
-        }));
-        bar.finish();
-    }
+        });
+    let report = full_report(&model, simulation.as_ref(), args.replicates, seed);
     render(&report, args.out.format, &mut sink)?;
     Ok(if args.gate && !report.verdict.supports_assumption {
         Outcome::GateFailed
     } else {
         Outcome::Done
     })
+}
+
+/// The stack report with the forecast's bootstrap interval and, when asked, the simulation.
+pub fn full_report(
+    model: &StackModel,
+    simulation: Option<&SimulationSettings>,
+    replicates: usize,
+    seed: u64,
+) -> StackReport {
+    let mut report = StackReport::new(model);
+    report.forecast_uncertainty = forecast_uncertainty(model, replicates, seed);
+    if let Some(settings) = simulation {
+        let mut bar = ProgressOnTerminal::new();
+        report.simulation = Some(simulate(model, settings, &mut |done, planned| {
+            bar.update(done, planned)
+        }));
+        bar.finish();
+    }
+    report
 }
 
 /// A progress bar on stderr, shown only on a terminal and only once a run has taken a second.
