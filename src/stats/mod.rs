@@ -2,6 +2,8 @@
 
 pub mod capability;
 pub mod constants;
+pub mod distribution;
+pub mod fit;
 pub mod integrate;
 pub mod moments;
 pub mod normal;
