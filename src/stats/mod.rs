@@ -2,8 +2,10 @@
 
 pub mod capability;
 pub mod constants;
+pub mod control;
 pub mod distribution;
 pub mod fit;
+pub mod groups;
 pub mod integrate;
 pub mod moments;
 pub mod normal;
