@@ -25,6 +25,7 @@ fn contributor(i: usize, sd: f64, distribution: Option<Distribution>) -> Contrib
         ppk_lower: None,
         skewness: None,
         normality_p: None,
+        ..Default::default()
     }
 }
 

@@ -117,6 +117,13 @@ pub struct CapabilityArgs {
     /// Flag features whose normality test rejects at this level.
     #[arg(long, default_value_t = 0.05)]
     pub alpha: f64,
+    /// Distribution model for the percentile indices: auto (normal unless rejected, else the
+    /// lowest AIC), normal, lognormal, weibull, gamma, lognormal_3p, weibull_3p, gamma_3p, boxcox.
+    #[arg(long, default_value = "auto", value_name = "MODEL")]
+    pub model: String,
+    /// Nelson tests for special causes to apply: a list such as 1,2,5, `all` or `none`.
+    #[arg(long, default_value = "1,2,3,4", value_name = "LIST")]
+    pub rules: String,
     /// Exit with code 1 when any feature is flagged.
     #[arg(long)]
     pub gate: bool,

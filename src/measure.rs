@@ -8,6 +8,8 @@ use crate::stack::file::{Source, StackFile};
 use crate::stack::model::{ContributorModel, PartGroup, StackModel};
 use crate::stats::capability::{capability, CapabilityOptions, Limits};
 use crate::stats::moments::covariance;
+use crate::stats::within::WithinMethod;
+use crate::study::{build_stability, chart_for, model_for, StudySettings};
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
@@ -96,6 +98,24 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
                     },
                 };
                 let cap = capability(&values, None, &limits, &CapabilityOptions::default());
+                let settings = StudySettings::default();
+                let (choice, models) = model_for(&values, &limits, &cap, &settings);
+                let chosen = choice
+                    .as_ref()
+                    .and_then(|m| models.iter().find(|f| f.name == m.name));
+                let rows: Vec<usize> = (0..ds.rows())
+                    .filter(|&r| !ds.features[fi].values[r].is_nan())
+                    .collect();
+                let locate = |point: usize| {
+                    let r = rows[point];
+                    (
+                        Some(ds.files[ds.row_file[r] as usize].clone()),
+                        Some(ds.value_line(fi, r)),
+                        ds.part_ids.get(r).cloned(),
+                    )
+                };
+                let stability = chart_for(&values, None, WithinMethod::MovingRange, chosen)
+                    .map(|chart| build_stability(chart, &settings.rules, true, &locate));
                 contributors.push(ContributorModel {
                     name: c.name.clone(),
                     sensitivity: c.sensitivity,
@@ -111,6 +131,14 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
                     ppk_lower: cap.ppk_lower,
                     skewness: cap.skewness,
                     normality_p: cap.anderson_darling.map(|a| a.p),
+                    model_name: choice.as_ref().map(|m| m.name),
+                    model_ppk: choice.as_ref().and_then(|m| m.capability.ppk),
+                    fitted: chosen.map(|m| m.distribution),
+                    stable: stability.as_ref().map(|s| s.stable),
+                    stability: stability
+                        .as_ref()
+                        .filter(|s| !s.stable)
+                        .map(|s| s.summary()),
                 });
                 columns.push(Some((path, fi)));
             }
@@ -136,6 +164,7 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
                     ppk_lower: None,
                     skewness: None,
                     normality_p: None,
+                    ..Default::default()
                 });
                 columns.push(None);
             }

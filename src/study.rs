@@ -3,6 +3,9 @@
 
 use crate::intake::{Dataset, SpecSet, NO_LEVEL};
 use crate::stats::capability::{capability, Capability, CapabilityOptions, Limits};
+use crate::stats::control::{self, Chart, Signal, RULES};
+use crate::stats::fit::{self, FittedModel, PercentileCapability};
+use crate::stats::groups::{self, Test};
 use crate::stats::within::WithinMethod;
 use rayon::prelude::*;
 use serde::Serialize;
@@ -17,6 +20,19 @@ pub struct StudySettings {
     pub options: CapabilityOptions,
     pub min_cpk: f64,
     pub alpha: f64,
+    pub model: ModelRequest,
+    /// The Nelson tests to apply (1–8).
+    pub rules: Vec<u8>,
+}
+
+/// Which distribution model gives the percentile indices.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ModelRequest {
+    /// Normal while the normality tests accept it; else every family is fitted and the lowest
+    /// AIC chosen ([`fit::choose`]).
+    Auto,
+    /// This family for every feature (every family is fitted and reported).
+    Named(&'static str),
 }
 
 impl Default for StudySettings {
@@ -28,6 +44,8 @@ impl Default for StudySettings {
             options: CapabilityOptions::default(),
             min_cpk: DEFAULT_MIN_CPK,
             alpha: DEFAULT_ALPHA,
+            model: ModelRequest::Auto,
+            rules: control::DEFAULT_RULES.to_vec(),
         }
     }
 }
@@ -59,11 +77,58 @@ pub struct FeatureResult {
     pub usl: Option<f64>,
     #[serde(flatten)]
     pub capability: Capability,
-    /// `cpk` (below the minimum), `normality` (rejected), `resolution` (gauge too coarse).
+    /// The distribution model behind the percentile indices.
+    pub model: Option<ModelChoice>,
+    /// Every model fitted (all families when normality is rejected or `--model` names one).
+    pub models: Vec<FittedModel>,
+    pub stability: Option<Stability>,
+    /// `cpk` (below the minimum), `normality` (rejected), `resolution` (gauge too coarse),
+    /// `unstable` (the control chart signals).
     pub flags: Vec<String>,
     /// The values in process order, for charts; not serialised.
     #[serde(skip)]
     pub values: Vec<f64>,
+}
+
+/// The chosen model, why, and its percentile-method indices and reject rates.
+#[derive(Debug, Clone, Serialize)]
+pub struct ModelChoice {
+    pub name: &'static str,
+    pub reason: String,
+    #[serde(flatten)]
+    pub capability: PercentileCapability,
+}
+
+/// The control chart of a feature and what its tests found.
+#[derive(Debug, Clone, Serialize)]
+pub struct Stability {
+    #[serde(flatten)]
+    pub chart: Chart,
+    pub rules: Vec<u8>,
+    /// False when more points signal than chance explains: P(N ≥ signals) < [`CHANCE_ALPHA`]
+    /// for N Poisson with mean `expected_by_chance` (capstack's rule, no published source; a
+    /// long series of a stable process signals now and then, and every signal is listed).
+    pub stable: bool,
+    /// That Poisson tail probability (1 without signals).
+    pub chance_p: f64,
+    pub signals: Vec<SignalAt>,
+    /// How many points the chart has (values, or subgroups).
+    pub points: usize,
+    /// Signalling points a stable process would give by chance with these tests (about):
+    /// a long series signals now and then even when nothing changed.
+    pub expected_by_chance: f64,
+}
+
+/// A signalling point, with where it came from.
+#[derive(Debug, Clone, Serialize)]
+pub struct SignalAt {
+    #[serde(flatten)]
+    pub signal: Signal,
+    pub description: &'static str,
+    /// File, physical line and part of the value (individuals charts).
+    pub file: Option<String>,
+    pub line: Option<u64>,
+    pub part: Option<String>,
 }
 
 /// Rows of the dataset in process order: file order, or sorted by the `--order` column
@@ -210,7 +275,26 @@ pub fn study(
                 options.within = WithinMethod::MovingRange;
             }
             let cap = capability(&values, subgroups.as_deref(), &limits, &options);
-            let flags = flags_for(&cap, &feature.name, data, settings);
+            let mut flags = flags_for(&cap, &feature.name, data, settings);
+            let (model, models) = model_for(&values, &limits, &cap, settings);
+            let chosen = model
+                .as_ref()
+                .and_then(|m| models.iter().find(|f| f.name == m.name));
+            let chart = chart_for(&values, subgroups.as_deref(), options.within, chosen);
+            let individual = subgroups.is_none();
+            let locate = |point: usize| {
+                let r = used_rows[point];
+                (
+                    Some(data.files[data.row_file[r] as usize].clone()),
+                    Some(data.value_line(f, r)),
+                    data.part_ids.get(r).cloned(),
+                )
+            };
+            let stability =
+                chart.map(|chart| build_stability(chart, &settings.rules, individual, &locate));
+            if stability.as_ref().is_some_and(|s| !s.stable) {
+                flags.push("unstable".to_string());
+            }
             FeatureResult {
                 feature: feature.name.clone(),
                 group: group.clone(),
@@ -220,6 +304,9 @@ pub fn study(
                 lsl: limits.lsl,
                 usl: limits.usl,
                 capability: cap,
+                model,
+                models,
+                stability,
                 flags,
                 values,
             }
@@ -252,4 +339,378 @@ fn flags_for(
         flags.push("resolution".to_string());
     }
     flags
+}
+
+/// The model for one feature: under `auto`, normal while neither normality test rejects (only
+/// the normal model is fitted), else every family with the lowest-AIC choice; a named model is
+/// used when it can be fitted to these values, else the lowest-AIC choice with the reason.
+pub fn model_for(
+    values: &[f64],
+    limits: &Limits,
+    cap: &Capability,
+    settings: &StudySettings,
+) -> (Option<ModelChoice>, Vec<FittedModel>) {
+    let mut sorted = values.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    let rejected = cap.anderson_darling.is_some_and(|a| a.p < settings.alpha)
+        || cap.shapiro_wilk.is_some_and(|s| s.p < settings.alpha);
+    let pick = |models: &[FittedModel], i: usize, reason: String| ModelChoice {
+        name: models[i].name,
+        reason,
+        capability: models[i].capability,
+    };
+    match settings.model {
+        ModelRequest::Auto if !rejected => {
+            let models: Vec<FittedModel> = fit::fit_named("normal", &sorted, limits)
+                .into_iter()
+                .collect();
+            let reason = match cap.anderson_darling {
+                Some(a) => format!("normality not rejected (Anderson–Darling p = {:.3})", a.p),
+                None => "too few values to test normality".to_string(),
+            };
+            let choice = (!models.is_empty()).then(|| pick(&models, 0, reason));
+            (choice, models)
+        }
+        ModelRequest::Auto => {
+            let models = fit::fit_all(&sorted, limits);
+            let choice = fit::choose(&models)
+                .map(|(i, why)| pick(&models, i, format!("normality rejected; {why}")));
+            (choice, models)
+        }
+        ModelRequest::Named(name) => {
+            let models = fit::fit_all(&sorted, limits);
+            let choice = match models.iter().position(|m| m.name == name) {
+                Some(i) => Some(pick(&models, i, format!("{name} requested (--model)"))),
+                None => fit::choose(&models).map(|(i, why)| {
+                    pick(
+                        &models,
+                        i,
+                        format!("{name} cannot be fitted to these values; {why}"),
+                    )
+                }),
+            };
+            (choice, models)
+        }
+    }
+}
+
+/// The between-group comparison of one feature under `--by`.
+#[derive(Debug, Clone, Serialize)]
+pub struct Comparison {
+    pub feature: String,
+    pub by: String,
+    pub groups: Vec<GroupSummary>,
+    pub anova: Option<Test>,
+    pub kruskal_wallis: Option<Test>,
+    pub levene: Option<Test>,
+    pub brown_forsythe: Option<Test>,
+    /// By ANOVA, or by Kruskal–Wallis when a group's normality is rejected.
+    pub means_differ: bool,
+    /// By Brown–Forsythe (robust to non-normal groups).
+    pub spreads_differ: bool,
+    pub summary: String,
+}
+
+#[derive(Debug, Clone, Serialize)]
+pub struct GroupSummary {
+    pub group: String,
+    pub n: usize,
+    pub mean: Option<f64>,
+    pub sd: Option<f64>,
+    /// (mean − target)/(half the tolerance), where both limits exist.
+    pub offset_of_tolerance: Option<f64>,
+}
+
+/// For every feature studied by groups: do the groups differ in mean or in spread, and which
+/// group sits farthest from the target.
+pub fn compare_groups(results: &[FeatureResult], alpha: f64) -> Vec<Comparison> {
+    let mut features: Vec<&str> = Vec::new();
+    for r in results.iter().filter(|r| r.group.is_some()) {
+        if !features.contains(&r.feature.as_str()) {
+            features.push(&r.feature);
+        }
+    }
+    features
+        .into_iter()
+        .filter_map(|name| {
+            let rs: Vec<&FeatureResult> = results
+                .iter()
+                .filter(|r| r.feature == name && r.group.is_some() && !r.values.is_empty())
+                .collect();
+            if rs.len() < 2 {
+                return None;
+            }
+            let (by, _) = rs[0].group.as_ref()?.iter().next()?;
+            let label = |r: &FeatureResult| {
+                r.group
+                    .as_ref()
+                    .and_then(|g| g.values().next().cloned())
+                    .unwrap_or_default()
+            };
+            let target = Limits {
+                nominal: rs[0].nominal,
+                lsl: rs[0].lsl,
+                usl: rs[0].usl,
+            };
+            let half = match (target.lsl, target.usl) {
+                (Some(l), Some(u)) => Some((u - l) / 2.0),
+                _ => None,
+            };
+            let centre = target.target();
+            let groups_summary: Vec<GroupSummary> = rs
+                .iter()
+                .map(|r| GroupSummary {
+                    group: label(r),
+                    n: r.capability.n,
+                    mean: r.capability.mean,
+                    sd: r.capability.sd_overall,
+                    offset_of_tolerance: match (r.capability.mean, centre, half) {
+                        (Some(m), Some(t), Some(h)) => Some((m - t) / h),
+                        _ => None,
+                    },
+                })
+                .collect();
+            let slices: Vec<&[f64]> = rs.iter().map(|r| r.values.as_slice()).collect();
+            let anova = groups::anova(&slices);
+            let kruskal_wallis = groups::kruskal_wallis(&slices);
+            let any_non_normal = rs.iter().any(|r| r.flags.iter().any(|f| f == "normality"));
+            let location = if any_non_normal {
+                kruskal_wallis
+            } else {
+                anova
+            };
+            let means_differ = location.is_some_and(|t| t.p < alpha);
+            let brown_forsythe = groups::levene(&slices, true);
+            let spreads_differ = brown_forsythe.is_some_and(|t| t.p < alpha);
+            let test_name = if any_non_normal {
+                "Kruskal–Wallis"
+            } else {
+                "ANOVA"
+            };
+            let mut summary = match location {
+                Some(t) if means_differ => format!("means differ ({test_name} p = {:.2e})", t.p),
+                Some(t) => format!("no difference in mean shown ({test_name} p = {:.3})", t.p),
+                None => "too few values to compare means".to_string(),
+            };
+            if let Some(far) = groups_summary
+                .iter()
+                .filter(|g| g.offset_of_tolerance.is_some())
+                .max_by(|a, b| {
+                    a.offset_of_tolerance
+                        .unwrap()
+                        .abs()
+                        .total_cmp(&b.offset_of_tolerance.unwrap().abs())
+                })
+            {
+                if means_differ {
+                    summary.push_str(&format!(
+                        "; {} sits farthest from the target, {:+.0} % of the half-tolerance",
+                        far.group,
+                        100.0 * far.offset_of_tolerance.unwrap()
+                    ));
+                }
+            }
+            match brown_forsythe {
+                Some(t) if spreads_differ => summary.push_str(&format!(
+                    "; spreads differ (Brown–Forsythe p = {:.2e})",
+                    t.p
+                )),
+                Some(t) => summary.push_str(&format!(
+                    "; no difference in spread shown (Brown–Forsythe p = {:.3})",
+                    t.p
+                )),
+                None => {}
+            }
+            Some(Comparison {
+                feature: name.to_string(),
+                by: by.clone(),
+                groups: groups_summary,
+                anova,
+                kruskal_wallis,
+                levene: groups::levene(&slices, false),
+                brown_forsythe,
+                means_differ,
+                spreads_differ,
+                summary,
+            })
+        })
+        .collect()
+}
+
+/// The control chart of a feature: X̄-S or X̄-R for subgroups; for individuals an I-MR chart,
+/// drawn on the normal scores Φ⁻¹(F(x)) of the chosen model when that model is not normal, so
+/// that a skewed but stable feature does not signal for its shape alone (the limits are mapped
+/// back to the feature's unit; the tests run on the scores).
+pub fn chart_for(
+    values: &[f64],
+    subgroups: Option<&[Vec<f64>]>,
+    within: WithinMethod,
+    model: Option<&FittedModel>,
+) -> Option<Chart> {
+    match (subgroups, within) {
+        (Some(g), WithinMethod::Sd) => return control::subgroups(g, true),
+        (Some(g), _) => return control::subgroups(g, false),
+        (None, _) => {}
+    }
+    let Some(m) = model.filter(|m| m.name != "normal") else {
+        return control::individuals(values);
+    };
+    let d = m.distribution;
+    let scores: Vec<f64> = values
+        .iter()
+        .map(|&x| {
+            let z = if d.cdf(x) < 0.5 {
+                crate::stats::normal::quantile(d.cdf(x).max(1e-300))
+            } else {
+                -crate::stats::normal::quantile(d.sf(x).max(1e-300))
+            };
+            z.clamp(-40.0, 40.0)
+        })
+        .collect();
+    let mut chart = control::individuals(&scores)?;
+    let back = |z: f64| d.quantile(crate::stats::normal::cdf(z));
+    chart.kind = "individuals_normal_scores";
+    chart.dispersion_name = "moving_range_of_scores";
+    chart.location = control::Limits {
+        centre: back(chart.location.centre),
+        lcl: back(chart.location.lcl),
+        ucl: back(chart.location.ucl),
+    };
+    chart.scores = Some(scores);
+    chart.location_points = values.to_vec();
+    Some(chart)
+}
+
+/// Level below which signals are more than chance (see [`Stability::stable`]).
+pub const CHANCE_ALPHA: f64 = 0.05;
+
+/// P(N ≥ k) for N Poisson with mean λ.
+fn poisson_at_least(k: usize, lambda: f64) -> f64 {
+    if k == 0 {
+        return 1.0;
+    }
+    if lambda <= 0.0 {
+        return 0.0;
+    }
+    let (mut term, mut below) = ((-lambda).exp(), 0.0);
+    for i in 0..k {
+        below += term;
+        term *= lambda / (i + 1) as f64;
+    }
+    (1.0 - below).max(0.0)
+}
+
+/// Where a point of an individuals chart came from: file, physical line, part.
+pub type Locate<'a> = dyn Fn(usize) -> (Option<String>, Option<u64>, Option<String>) + 'a;
+
+/// The chart's signals under the chosen tests, each placed in its file for individuals charts.
+pub fn build_stability(chart: Chart, rules: &[u8], individual: bool, locate: &Locate) -> Stability {
+    let signals: Vec<SignalAt> = chart_signals(&chart, rules)
+        .into_iter()
+        .map(|signal| {
+            let (file, line, part) = if individual {
+                locate(signal.point)
+            } else {
+                (None, None, None)
+            };
+            SignalAt {
+                signal,
+                description: if signal.chart == "dispersion" {
+                    "above the upper limit of the dispersion chart"
+                } else {
+                    RULES[signal.rule as usize - 1].1
+                },
+                file,
+                line,
+                part,
+            }
+        })
+        .collect();
+    let expected = control::expected_by_chance(chart.location_points.len(), rules, individual);
+    let chance_p = poisson_at_least(signals.len(), expected);
+    Stability {
+        points: chart.location_points.len(),
+        expected_by_chance: expected,
+        rules: rules.to_vec(),
+        stable: chance_p >= CHANCE_ALPHA,
+        chance_p,
+        signals,
+        chart,
+    }
+}
+
+/// The chart's signals; on a normal-scores chart they are found on the scores and reported
+/// with the measured values.
+pub fn chart_signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
+    let Some(scores) = &chart.scores else {
+        return control::signals(chart, rules);
+    };
+    let mut on_scores = chart.clone();
+    on_scores.location_points = scores.clone();
+    let c = scores.iter().sum::<f64>() / scores.len() as f64;
+    on_scores.location.centre = c;
+    control::signals(&on_scores, rules)
+        .into_iter()
+        .map(|mut s| {
+            if s.chart == "location" {
+                s.value = chart.location_points[s.point];
+            }
+            s
+        })
+        .collect()
+}
+
+impl Stability {
+    /// One line for a person: how many points signal, on which tests, against chance, and the
+    /// first place.
+    pub fn summary(&self) -> String {
+        if self.signals.is_empty() {
+            return format!(
+                "no signals on tests {:?} ({} points)",
+                self.rules, self.points
+            );
+        }
+        let mut by_rule: BTreeMap<(u8, &str), usize> = BTreeMap::new();
+        for s in &self.signals {
+            *by_rule.entry((s.signal.rule, s.signal.chart)).or_default() += 1;
+        }
+        let tests: Vec<String> = by_rule
+            .iter()
+            .map(|((r, chart), n)| {
+                let what = if *chart == "dispersion" {
+                    format!(
+                        "{} above its limit",
+                        self.chart.dispersion_name.replace('_', " ")
+                    )
+                } else {
+                    format!("test {r}")
+                };
+                format!("{what} ×{n}")
+            })
+            .collect();
+        let first = self.signals.iter().min_by_key(|s| s.signal.point).map(|s| {
+            match (&s.file, s.line, &s.part) {
+                (Some(f), Some(l), Some(p)) => format!("; first at {f}:{l} (part {p})"),
+                (Some(f), Some(l), None) => format!("; first at {f}:{l}"),
+                _ => format!("; first at point {}", s.signal.point + 1),
+            }
+        });
+        let judged = if self.stable {
+            "within chance"
+        } else {
+            "more than chance"
+        };
+        let p = if self.chance_p < 0.01 {
+            "p < 0.01".to_string()
+        } else {
+            format!("p = {:.2}", self.chance_p)
+        };
+        format!(
+            "chart signals at {} point(s): {} (about {:.1} expected by chance: {judged}, {p}){}",
+            self.signals.len(),
+            tests.join(", "),
+            self.expected_by_chance,
+            first.unwrap_or_default()
+        )
+    }
 }

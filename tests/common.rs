@@ -87,6 +87,7 @@ pub fn contributor(
         ppk_lower: None,
         skewness: None,
         normality_p: None,
+        ..Default::default()
     }
 }
 

@@ -55,7 +55,7 @@ proptest! {
     fn rss_half_width_never_exceeds_worst_case_and_mirroring_mirrors(parts in prop::collection::vec((-3.0f64..3.0, 0.01f64..1.0, 0.001f64..0.5), 1..8)) {
         let contributors: Vec<ContributorModel> = parts.iter().enumerate().map(|(i, &(a, t, sd))| ContributorModel {
             name: format!("c{i}"), sensitivity: if a.abs() < 0.1 { 1.0 } else { a }, nominal: 10.0, lower_limit: 10.0 - t, upper_limit: 10.0 + t,
-            mean: 10.0 + t / 3.0, sd, n: Some(30), distribution: None, sampling: None, ppk: None, ppk_lower: None, skewness: None, normality_p: None,
+            mean: 10.0 + t / 3.0, sd, n: Some(30), distribution: None, sampling: None, ppk: None, ppk_lower: None, skewness: None, normality_p: None, ..Default::default()
         }).collect();
         let n = contributors.len();
         let mut covariance = vec![vec![0.0; n]; n];

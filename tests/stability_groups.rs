@@ -15,9 +15,24 @@ fn ds1_individuals_chart_matches_the_worked_example() {
     let c = individuals(&x).unwrap();
     close(c.location.centre, value(&exp, "mean"), 1e-12, "CL");
     let mr = value(&exp, "MRbar");
-    close(c.location.ucl, value(&exp, "mean") + 3.0 / 1.1283791671 * mr, 1e-9, "UCL exact");
-    close(c.location.ucl, value(&exp, "I_chart_UCL[mean+2.66*MRbar]"), 1e-5, "UCL table");
-    close(c.dispersion.ucl, value(&exp, "MR_chart_UCL[3.267*MRbar]"), 1e-3, "MR UCL");
+    close(
+        c.location.ucl,
+        value(&exp, "mean") + 3.0 / 1.1283791671 * mr,
+        1e-9,
+        "UCL exact",
+    );
+    close(
+        c.location.ucl,
+        value(&exp, "I_chart_UCL[mean+2.66*MRbar]"),
+        1e-5,
+        "UCL table",
+    );
+    close(
+        c.dispersion.ucl,
+        value(&exp, "MR_chart_UCL[3.267*MRbar]"),
+        1e-3,
+        "MR UCL",
+    );
     assert_eq!(c.dispersion.lcl, 0.0);
     // DS1 is in control.
     assert!(signals(&c, &DEFAULT_RULES).is_empty());
@@ -32,13 +47,23 @@ fn subgroup_charts_use_the_published_factors() {
     let groups: Vec<Vec<f64>> = x.chunks(4).map(|c| c.to_vec()).collect();
     let r = subgroups(&groups, false).unwrap();
     let rbar = value(&exp, "Rbar_5x4");
-    close(r.location.ucl - r.location.centre, 0.7286 * rbar, 2e-4, "A2");
+    close(
+        r.location.ucl - r.location.centre,
+        0.7286 * rbar,
+        2e-4,
+        "A2",
+    );
     close(r.dispersion.centre, rbar, 1e-12, "R̄");
     close(r.dispersion.ucl, 2.2821 * rbar, 2e-4, "D4");
     assert_eq!(r.dispersion.lcl, 0.0, "D3(4) = 0");
     let s = subgroups(&groups, true).unwrap();
     let sbar = value(&exp, "Sbar_5x4");
-    close(s.location.ucl - s.location.centre, 1.6281 * sbar, 2e-4, "A3");
+    close(
+        s.location.ucl - s.location.centre,
+        1.6281 * sbar,
+        2e-4,
+        "A3",
+    );
     close(s.dispersion.ucl, 2.2660 * sbar, 2e-4, "B4");
 }
 
@@ -86,7 +111,9 @@ fn each_nelson_test_trips_on_its_own_pattern_and_counts_as_documented() {
     z[9] = -0.9;
     assert!(nelson(&z, &[3]).is_empty());
     // 4: fourteen alternating points signal at the fourteenth.
-    let z: Vec<f64> = (0..14).map(|i| if i % 2 == 0 { 0.2 } else { -0.2 }).collect();
+    let z: Vec<f64> = (0..14)
+        .map(|i| if i % 2 == 0 { 0.2 } else { -0.2 })
+        .collect();
     assert_eq!(nelson(&z, &[4]), vec![(13, 4)]);
     assert!(nelson(&z[..13], &[4]).is_empty());
     // 5: two of three beyond 2σ on one side, signalled at the second.

@@ -6,19 +6,21 @@ use crate::error::InputError;
 use crate::output::capability::CapabilityReport;
 use crate::output::{render, Sink};
 use crate::stats::capability::CapabilityOptions;
+use crate::stats::fit;
 use crate::stats::within::WithinMethod;
-use crate::study::{study, StudySettings, Subgrouping};
+use crate::study::{study, ModelRequest, StudySettings, Subgrouping};
 
 pub fn run(args: &CapabilityArgs) -> anyhow::Result<Outcome> {
     let settings = settings(args)?;
     let mut sink = Sink::open(args.out.output.as_deref())?;
     let (data, specs) = super::load(&args.data)?;
     let features = study(&data, &specs, &settings)?;
-    let report = CapabilityReport {
+    let report = CapabilityReport::new(
         features,
-        audit: data.audit,
-        confidence: settings.options.confidence,
-    };
+        data.audit,
+        settings.options.confidence,
+        settings.alpha,
+    );
     render(&report, args.out.format, &mut sink)?;
     let flagged = report.features.iter().any(|f| !f.flags.is_empty());
     Ok(if args.gate && flagged {
@@ -70,5 +72,49 @@ fn settings(args: &CapabilityArgs) -> Result<StudySettings, InputError> {
         },
         min_cpk: args.min_cpk,
         alpha: args.alpha,
+        model: model_request(&args.model)?,
+        rules: parse_rules(&args.rules)?,
     })
+}
+
+fn model_request(text: &str) -> Result<ModelRequest, InputError> {
+    if text == "auto" {
+        return Ok(ModelRequest::Auto);
+    }
+    fit::canonical(text)
+        .map(ModelRequest::Named)
+        .ok_or_else(|| {
+            InputError::new(format!(
+                "--model '{text}' is not one of auto, {}",
+                fit::MODEL_NAMES.join(", ")
+            ))
+        })
+}
+
+/// `1,2,5`, `all` or `none`.
+pub fn parse_rules(text: &str) -> Result<Vec<u8>, InputError> {
+    match text.trim() {
+        "all" => return Ok((1..=8).collect()),
+        "none" => return Ok(Vec::new()),
+        _ => {}
+    }
+    let mut rules = Vec::new();
+    for part in text.split(',') {
+        let r: u8 = part
+            .trim()
+            .parse()
+            .ok()
+            .filter(|r| (1..=8).contains(r))
+            .ok_or_else(|| {
+                InputError::new(format!(
+                    "--rules '{text}': '{}' is not a test number 1-8 (or use all / none)",
+                    part.trim()
+                ))
+            })?;
+        if !rules.contains(&r) {
+            rules.push(r);
+        }
+    }
+    rules.sort();
+    Ok(rules)
 }

@@ -15,7 +15,7 @@ use crate::stack::uncertainty::DEFAULT_REPLICATES;
 
 /// Draws of the demo's simulation: enough for a tight interval at the scenario's ~1000 ppm.
 const DEMO_SAMPLES: u64 = 4_000_000;
-use crate::study::{study, StudySettings};
+use crate::study::{study, StudySettings, DEFAULT_ALPHA};
 use std::path::Path;
 
 /// The data files and spec sheets of the scenario, by supplier.
@@ -42,11 +42,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
     let data = intake::read_files(&files, &ReadOptions::default(), &sheet)?;
     let specs = intake::merge_specs(&sheet, &data.embedded_specs)?;
     let features = study(&data, &specs, &StudySettings::default())?;
-    let capability = CapabilityReport {
-        features,
-        audit: data.audit.clone(),
-        confidence: 0.95,
-    };
+    let capability = CapabilityReport::new(features, data.audit.clone(), 0.95, DEFAULT_ALPHA);
     write(
         &args.out,
         "capability.txt",
@@ -64,11 +60,12 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
         by: Some("lot".into()),
         ..StudySettings::default()
     };
-    let by_lot = CapabilityReport {
-        features: study(&data, &specs, &by_supplier_lot)?,
-        audit: data.audit.clone(),
-        confidence: 0.95,
-    };
+    let by_lot = CapabilityReport::new(
+        study(&data, &specs, &by_supplier_lot)?,
+        data.audit.clone(),
+        0.95,
+        DEFAULT_ALPHA,
+    );
     write(
         &args.out,
         "capability_by_lot.txt",

@@ -3,14 +3,28 @@
 use super::table::{Cell, Table};
 use super::{csv_field, csv_num, num, ppm, Render};
 use crate::intake::Audit;
-use crate::study::FeatureResult;
+use crate::study::{Comparison, FeatureResult};
 use serde::Serialize;
 
 #[derive(Debug, Serialize)]
 pub struct CapabilityReport {
     pub features: Vec<FeatureResult>,
+    /// Between-group tests, one per feature, under `--by`.
+    pub comparisons: Vec<Comparison>,
     pub audit: Audit,
     pub confidence: f64,
+}
+
+impl CapabilityReport {
+    /// The report, with the between-group tests when the features were studied by groups.
+    pub fn new(features: Vec<FeatureResult>, audit: Audit, confidence: f64, alpha: f64) -> Self {
+        Self {
+            comparisons: crate::study::compare_groups(&features, alpha),
+            features,
+            audit,
+            confidence,
+        }
+    }
 }
 
 /// The CSV columns, in order; stable names for pipelines.
@@ -53,6 +67,11 @@ const CSV_COLUMNS: &[&str] = &[
     "sw_w",
     "sw_p",
     "flags",
+    "model",
+    "model_ppk",
+    "model_ppm",
+    "stable",
+    "signals",
 ];
 
 fn group_text(f: &FeatureResult) -> String {
@@ -92,17 +111,30 @@ impl Render for CapabilityReport {
             "ppm exp",
             "AD p",
             "SW p",
+            "model",
+            "Ppk model",
+            "signals",
+            "stable",
         ]);
         let mut t = Table::new(&headers);
         if grouped {
             t.left.push(1);
         }
+        t.left.push(headers.len() - 4);
+        let mut previous: Option<&str> = None;
         for f in &self.features {
             let c = &f.capability;
             let cpk_bad = f.flags.iter().any(|x| x == "cpk");
             let normal_bad = f.flags.iter().any(|x| x == "normality");
+            // Under --by, one block per feature: its name on the block's first row only.
+            let name = if grouped && previous == Some(f.feature.as_str()) {
+                String::new()
+            } else {
+                f.feature.clone()
+            };
+            previous = Some(&f.feature);
             let mut row: Vec<Cell> = vec![Cell::flagged(
-                f.feature.clone(),
+                name,
                 f.flags.iter().any(|x| x == "resolution"),
             )];
             if grouped {
@@ -124,10 +156,51 @@ impl Render for CapabilityReport {
                 ppm(c.ppm_expected_overall).into(),
                 Cell::flagged(num(c.anderson_darling.map(|a| a.p), 2), normal_bad),
                 Cell::flagged(num(c.shapiro_wilk.map(|s| s.p), 2), normal_bad),
+                f.model.as_ref().map_or("-", |m| m.name).into(),
+                num(f.model.as_ref().and_then(|m| m.capability.ppk), 3).into(),
+                match &f.stability {
+                    Some(s) => Cell::flagged(
+                        format!("{}/{:.1}", s.signals.len(), s.expected_by_chance),
+                        !s.signals.is_empty(),
+                    ),
+                    None => "-".into(),
+                },
+                match &f.stability {
+                    Some(s) => Cell::flagged(if s.stable { "yes" } else { "no" }, !s.stable),
+                    None => "-".into(),
+                },
             ]);
             t.push(row);
         }
         let mut out = t.render(colour);
+        let label = |f: &FeatureResult| match &f.group {
+            Some(_) => format!("{} [{}]", f.feature, group_text(f)),
+            None => f.feature.clone(),
+        };
+        for f in &self.features {
+            if let Some(m) = f.model.as_ref().filter(|m| m.name != "normal") {
+                out.push_str(&format!(
+                    "model {}: {} ({}); Ppk {} and {} ppm expected, against {} ppm under the normal model\n",
+                    label(f),
+                    m.name,
+                    m.reason,
+                    num(m.capability.ppk, 3),
+                    ppm(m.capability.ppm.total),
+                    ppm(f.capability.ppm_expected_overall),
+                ));
+            }
+        }
+        for f in &self.features {
+            if let Some(s) = f.stability.as_ref().filter(|s| !s.signals.is_empty()) {
+                out.push_str(&format!("stability {}: {}\n", label(f), s.summary()));
+            }
+        }
+        for c in &self.comparisons {
+            out.push_str(&format!(
+                "groups {} by {}: {}\n",
+                c.feature, c.by, c.summary
+            ));
+        }
         let a = &self.audit;
         out.push_str(&format!(
             "\n{} rows read, {} used, {} rejected; {} values used, {} not used (see --format json for the list)\n",
@@ -147,7 +220,7 @@ impl Render for CapabilityReport {
             out.push_str(&format!("note: {}{}{place}\n", feat, w.message));
         }
         if self.features.iter().any(|f| !f.flags.is_empty()) {
-            out.push_str("! marks a Cpk below the minimum, a rejected normality test, or a gauge too coarse for the tolerance\n");
+            out.push_str("! marks a Cpk below the minimum, a rejected normality test, a chart that signals (signals/expected by chance; stable: no when more than chance), or a gauge too coarse for the tolerance\n");
         }
         out
     }
@@ -196,6 +269,17 @@ impl Render for CapabilityReport {
                 csv_num(c.shapiro_wilk.map(|s| s.w)),
                 csv_num(c.shapiro_wilk.map(|s| s.p)),
                 csv_field(&f.flags.join(";")),
+                f.model
+                    .as_ref()
+                    .map_or(String::new(), |m| m.name.to_string()),
+                csv_num(f.model.as_ref().and_then(|m| m.capability.ppk)),
+                csv_num(f.model.as_ref().and_then(|m| m.capability.ppm.total)),
+                f.stability
+                    .as_ref()
+                    .map_or(String::new(), |s| s.stable.to_string()),
+                f.stability
+                    .as_ref()
+                    .map_or(String::new(), |s| s.signals.len().to_string()),
             ];
             out.push_str(&fields.join(","));
             out.push('\n');

@@ -6,7 +6,7 @@ use crate::stats::normal;
 use serde::Serialize;
 
 /// One contributor, with what was measured (or stated) about it.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct ContributorModel {
     pub name: String,
     pub sensitivity: f64,
@@ -26,6 +26,15 @@ pub struct ContributorModel {
     pub skewness: Option<f64>,
     /// Anderson–Darling p of the normality test, where measured.
     pub normality_p: Option<f64>,
+    /// The measured parts' model (chosen as `capability --model auto` does) and its Ppk.
+    pub model_name: Option<&'static str>,
+    pub model_ppk: Option<f64>,
+    #[serde(skip)]
+    pub fitted: Option<crate::stats::distribution::Distribution>,
+    /// Whether the control chart of the measured parts (in file order, tests 1–4) is free of
+    /// signals, and what it found when not.
+    pub stable: Option<bool>,
+    pub stability: Option<String>,
 }
 
 impl ContributorModel {

@@ -43,6 +43,10 @@ pub struct ContributorVerdict {
     pub ppk: Option<f64>,
     pub ppk_lower: Option<f64>,
     pub normality_p: Option<f64>,
+    /// The measured parts' distribution model and its percentile Ppk.
+    pub model: Option<&'static str>,
+    pub model_ppk: Option<f64>,
+    pub stable: Option<bool>,
     /// aᵢ Σⱼ aⱼ Σᵢⱼ / σ²: the contributor's share of the assembly variance (shares sum to 1).
     pub variance_share: f64,
     /// aᵢ(μᵢ − mᵢ) / Σ aⱼ(μⱼ − mⱼ): its share of the assembly mean shift.
@@ -145,6 +149,14 @@ pub fn contributor_verdicts(model: &StackModel) -> Vec<ContributorVerdict> {
                     "{shape}: normal model rejected (Anderson–Darling p = {p:.3})"
                 ));
             }
+            if c.stable == Some(false) {
+                reasons.push(format!(
+                    "not stable: {}; its capability describes no stable process",
+                    c.stability
+                        .as_deref()
+                        .unwrap_or("the control chart signals")
+                ));
+            }
             for corr in &correlations {
                 if corr.r.abs() >= CORRELATION_THRESHOLD
                     && correlation_p(corr.r, corr.parts) < ALPHA
@@ -170,6 +182,9 @@ pub fn contributor_verdicts(model: &StackModel) -> Vec<ContributorVerdict> {
                 ppk: c.ppk,
                 ppk_lower: c.ppk_lower,
                 normality_p: c.normality_p,
+                model: c.model_name,
+                model_ppk: c.model_ppk,
+                stable: c.stable,
                 variance_share: share,
                 mean_shift_share: if shift_total.abs() > 0.0 {
                     c.sensitivity * shift / shift_total

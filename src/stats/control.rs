@@ -25,6 +25,31 @@ pub const RULES: [(u8, &str); 8] = [
     (8, "8 points in a row beyond 1 sigma, either side"),
 ];
 
+/// The chance that a given point signals on each test when the points are independent and
+/// normal (computed from the definitions above: e.g. test 2 is 2·(1/2)⁹, test 3 is 2/6!, test
+/// 4 is 2·E₁₄/14! with E the Euler zigzag number, test 7 is 0.6827¹⁵). Tests 1–4 together come
+/// to 0.0099, matching Nelson's "below 1/100".
+pub const CHANCE_PER_POINT: [f64; 8] = [
+    0.0027, 0.003906, 0.002778, 0.000513, 0.002046, 0.004466, 0.003264, 0.000103,
+];
+/// The chance that a moving range exceeds D4(2)·MR̄ for independent normal values:
+/// P(|Z| > 3.2665·d2(2)/√2) = P(|Z| > 2.606).
+pub const CHANCE_MOVING_RANGE: f64 = 0.00916;
+
+/// Signalling points to expect from chance alone on a stable chart of `points` points.
+pub fn expected_by_chance(points: usize, rules: &[u8], individuals: bool) -> f64 {
+    let per_point: f64 = rules
+        .iter()
+        .map(|&r| CHANCE_PER_POINT[r as usize - 1])
+        .sum();
+    let dispersion = if individuals && rules.contains(&1) {
+        CHANCE_MOVING_RANGE
+    } else {
+        0.0
+    };
+    points as f64 * (per_point + dispersion)
+}
+
 /// Tests 1–4: Nelson's set for routine use (tests 1–4 together have a false-signal chance
 /// below 1/100 per point, Nelson 1985 as quoted in the project's reference sheet).
 pub const DEFAULT_RULES: [u8; 4] = [1, 2, 3, 4];
@@ -39,11 +64,12 @@ pub struct Limits {
 /// A chart: what is plotted and its limits.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Chart {
-    /// `individuals`, `xbar_r` or `xbar_s`.
+    /// `individuals`, `individuals_normal_scores`, `xbar_r` or `xbar_s`.
     pub kind: &'static str,
     /// Limits of the location chart (at the most common subgroup size).
     pub location: Limits,
-    /// `moving_range`, `range` or `sd`, and its limits.
+    /// `moving_range` (`moving_range_of_scores` on a normal-scores chart), `range` or `sd`,
+    /// and its limits.
     pub dispersion_name: &'static str,
     pub dispersion: Limits,
     /// The plotted points: one per value (individuals) or per subgroup.
@@ -58,6 +84,10 @@ pub struct Chart {
     /// Upper limit of each dispersion point.
     #[serde(skip)]
     pub dispersion_ucl: Vec<f64>,
+    /// When the chart is drawn on normal scores: the scores the tests run on (the location
+    /// points are then the measured values and the limits are mapped back to them).
+    #[serde(skip)]
+    pub scores: Option<Vec<f64>>,
 }
 
 /// A point that signals.
@@ -98,6 +128,7 @@ pub fn individuals(x: &[f64]) -> Option<Chart> {
         location_sigma: vec![sigma; x.len()],
         dispersion_ucl: vec![f.d4_upper * mr_bar; mr.len()],
         dispersion_points: mr,
+        scores: None,
     })
 }
 
@@ -141,7 +172,11 @@ pub fn subgroups(groups: &[Vec<f64>], use_sd: bool) -> Option<Chart> {
     let typical = most_common_size(&groups);
     let f = chart_factors(typical);
     let loc_sigma = sigma / (typical as f64).sqrt();
-    let (lower, upper) = if use_sd { (f.b3, f.b4) } else { (f.d3_lower, f.d4_upper) };
+    let (lower, upper) = if use_sd {
+        (f.b3, f.b4)
+    } else {
+        (f.d3_lower, f.d4_upper)
+    };
     let spread_centre = sigma * unbias(typical);
     let ucl_for = |m: usize| {
         let f = chart_factors(m);
@@ -167,6 +202,7 @@ pub fn subgroups(groups: &[Vec<f64>], use_sd: bool) -> Option<Chart> {
         location_points: means,
         dispersion_ucl: groups.iter().map(|g| ucl_for(g.len())).collect(),
         dispersion_points: spread,
+        scores: None,
     })
 }
 
@@ -247,7 +283,11 @@ pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
         } else {
             0
         };
-        side_run = if s != 0 && s == side { side_run + 1 } else { usize::from(s != 0) };
+        side_run = if s != 0 && s == side {
+            side_run + 1
+        } else {
+            usize::from(s != 0)
+        };
         side = s;
         if i > 0 {
             let d = z[i] - z[i - 1];
@@ -258,9 +298,17 @@ pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
             } else {
                 0
             };
-            trend_run = if step != 0 && step == trend { trend_run + 1 } else { usize::from(step != 0) };
+            trend_run = if step != 0 && step == trend {
+                trend_run + 1
+            } else {
+                usize::from(step != 0)
+            };
             trend = step;
-            alt_run = if step != 0 && step == -last_step { alt_run + 1 } else { usize::from(step != 0) };
+            alt_run = if step != 0 && step == -last_step {
+                alt_run + 1
+            } else {
+                usize::from(step != 0)
+            };
             last_step = step;
         }
         within_run = if v.abs() < 1.0 { within_run + 1 } else { 0 };

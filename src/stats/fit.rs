@@ -81,6 +81,9 @@ pub fn fit_all(sorted: &[f64], limits: &Limits) -> Vec<FittedModel> {
 /// One family by name.
 pub fn fit_named(name: &str, sorted: &[f64], limits: &Limits) -> Option<FittedModel> {
     let name = canonical(name)?;
+    if sorted.len() < MIN_FIT_N || !(sorted[sorted.len() - 1] > sorted[0]) {
+        return None;
+    }
     let positive = sorted[0] > 0.0;
     let (distribution, k, selectable, note) = match name {
         "normal" => (normal_ml(sorted), 2, true, None),
