@@ -46,6 +46,7 @@ pub fn scenario() -> Vec<(&'static str, String)> {
         ("orrin_specs.csv", "feature,nominal,lower_dev,upper_dev,unit\nlength,6.00,-0.03,0.03,mm\n".to_string()),
         ("talvik_hubs.csv", hubs(&mut rng)),
         ("talvik_specs.csv", "feature;nominal;lsl;usl;unit\nhub_length;16,40;16,36;16,44;mm\nface_runout;0;;0,030;mm\n".to_string()),
+        ("brask_spacers.csv", second_spacer_supplier(&mut rng)),
         ("end_play.toml", STACK.to_string()),
     ]
 }
@@ -215,6 +216,22 @@ fn hubs(rng: &mut Rng) -> String {
         out.push_str(&format!(
             "{part};{lot};{date};face_runout;{}\n",
             comma(round_to(runout, 0.0001), 4)
+        ));
+    }
+    out
+}
+
+/// A second spacer supplier, centred in the zone: set beside Orrin's parts with
+/// `--by source_file`, it shows which supplier is off-centre.
+fn second_spacer_supplier(rng: &mut Rng) -> String {
+    let mut out = String::from("id,lot,length\n");
+    for i in 0..60 {
+        let l = 6.000 + rng.normal() * 0.0070;
+        out.push_str(&format!(
+            "B{:04},{},{:.4}\n",
+            501 + i,
+            ["B-1", "B-2"][i / 30],
+            round_to(l, 0.0001)
         ));
     }
     out

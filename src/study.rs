@@ -31,7 +31,7 @@ pub enum ModelRequest {
     /// Normal while the normality tests accept it; else every family is fitted and the lowest
     /// AIC chosen ([`fit::choose`]).
     Auto,
-    /// This family for every feature (every family is fitted and reported).
+    /// This family for every feature (fitted beside the normal model).
     Named(&'static str),
 }
 
@@ -111,6 +111,8 @@ pub struct Stability {
     pub stable: bool,
     /// That Poisson tail probability (1 without signals).
     pub chance_p: f64,
+    /// Every signalling point counted; the first [`MAX_LISTED_SIGNALS`] are listed.
+    pub signal_count: usize,
     pub signals: Vec<SignalAt>,
     /// How many points the chart has (values, or subgroups).
     pub points: usize,
@@ -350,8 +352,6 @@ pub fn model_for(
     cap: &Capability,
     settings: &StudySettings,
 ) -> (Option<ModelChoice>, Vec<FittedModel>) {
-    let mut sorted = values.to_vec();
-    sorted.sort_by(f64::total_cmp);
     let rejected = cap.anderson_darling.is_some_and(|a| a.p < settings.alpha)
         || cap.shapiro_wilk.is_some_and(|s| s.p < settings.alpha);
     let pick = |models: &[FittedModel], i: usize, reason: String| ModelChoice {
@@ -359,26 +359,38 @@ pub fn model_for(
         reason,
         capability: models[i].capability,
     };
+    let sorted = || {
+        let mut s = values.to_vec();
+        s.sort_by(f64::total_cmp);
+        s
+    };
     match settings.model {
         ModelRequest::Auto if !rejected => {
-            let models: Vec<FittedModel> = fit::fit_named("normal", &sorted, limits)
-                .into_iter()
-                .collect();
+            // Nothing to choose between: the normal model with its ML parameters, no fits.
             let reason = match cap.anderson_darling {
                 Some(a) => format!("normality not rejected (Anderson–Darling p = {:.3})", a.p),
                 None => "too few values to test normality".to_string(),
             };
-            let choice = (!models.is_empty()).then(|| pick(&models, 0, reason));
-            (choice, models)
+            let choice = normal_choice(cap, limits, reason);
+            (choice, Vec::new())
         }
         ModelRequest::Auto => {
-            let models = fit::fit_all(&sorted, limits);
+            let models = fit::fit_all(&sorted(), limits);
             let choice = fit::choose(&models)
                 .map(|(i, why)| pick(&models, i, format!("normality rejected; {why}")));
             (choice, models)
         }
+        ModelRequest::Named("normal") => (
+            normal_choice(cap, limits, "normal requested (--model)".into()),
+            Vec::new(),
+        ),
         ModelRequest::Named(name) => {
-            let models = fit::fit_all(&sorted, limits);
+            // The named family, with the normal model beside it for comparison.
+            let sorted = sorted();
+            let models: Vec<FittedModel> = ["normal", name]
+                .iter()
+                .filter_map(|n| fit::fit_named(n, &sorted, limits))
+                .collect();
             let choice = match models.iter().position(|m| m.name == name) {
                 Some(i) => Some(pick(&models, i, format!("{name} requested (--model)"))),
                 None => fit::choose(&models).map(|(i, why)| {
@@ -391,6 +403,25 @@ pub fn model_for(
             };
             (choice, models)
         }
+    }
+}
+
+/// The normal model with the ML parameters (mean, n-divisor sd): a closed form, no fit.
+fn normal_choice(cap: &Capability, limits: &Limits, reason: String) -> Option<ModelChoice> {
+    match (cap.mean, cap.sd_overall) {
+        (Some(mean), Some(sd)) if sd > 0.0 && cap.n >= fit::MIN_FIT_N => {
+            let n = cap.n as f64;
+            let d = crate::stats::distribution::Distribution::Normal {
+                mean,
+                sd: sd * ((n - 1.0) / n).sqrt(),
+            };
+            Some(ModelChoice {
+                name: "normal",
+                reason,
+                capability: fit::percentile_capability(&d, limits),
+            })
+        }
+        _ => None,
     }
 }
 
@@ -581,6 +612,10 @@ pub fn chart_for(
     Some(chart)
 }
 
+/// Signals listed per feature (all are counted): a chart of 10⁵ points signals by chance
+/// about 10³ times, a list nobody reads.
+pub const MAX_LISTED_SIGNALS: usize = 1000;
+
 /// Level below which signals are more than chance (see [`Stability::stable`]).
 pub const CHANCE_ALPHA: f64 = 0.05;
 
@@ -628,12 +663,16 @@ pub fn build_stability(chart: Chart, rules: &[u8], individual: bool, locate: &Lo
         .collect();
     let expected = control::expected_by_chance(chart.location_points.len(), rules, individual);
     let chance_p = poisson_at_least(signals.len(), expected);
+    let signal_count = signals.len();
+    let mut signals = signals;
+    signals.truncate(MAX_LISTED_SIGNALS);
     Stability {
         points: chart.location_points.len(),
         expected_by_chance: expected,
         rules: rules.to_vec(),
         stable: chance_p >= CHANCE_ALPHA,
         chance_p,
+        signal_count,
         signals,
         chart,
     }
@@ -707,7 +746,7 @@ impl Stability {
         };
         format!(
             "chart signals at {} point(s): {} (about {:.1} expected by chance: {judged}, {p}){}",
-            self.signals.len(),
+            self.signal_count,
             tests.join(", "),
             self.expected_by_chance,
             first.unwrap_or_default()

@@ -4,6 +4,9 @@ use capstack::stack::analytic::{measured, rss, worst_case};
 use capstack::stack::file::{Assumptions, Requirement};
 use capstack::stack::model::{ContributorModel, StackModel};
 use capstack::stats::capability::{capability, CapabilityOptions, Limits};
+use capstack::stats::control::{individuals, signals, subgroups};
+use capstack::stats::fit::fit_all;
+use capstack::stats::groups::{anova, kruskal_wallis, levene};
 use proptest::prelude::*;
 
 fn sample() -> impl Strategy<Value = Vec<f64>> {
@@ -68,5 +71,33 @@ proptest! {
         for c in &mut mirrored.contributors { c.sensitivity = -c.sensitivity; }
         let (f, g) = (measured(&m), measured(&mirrored));
         prop_assert!((f.mean + g.mean).abs() < 1e-9 && (f.sd - g.sd).abs() < 1e-12);
+    }
+
+    #[test]
+    fn fits_and_charts_never_panic_and_stay_finite(
+        x in prop::collection::vec(prop_oneof![-1e3f64..1e3, 0.0f64..1e-3, Just(0.0), Just(1.0)], 0..80),
+        subgroup in 2usize..6,
+    ) {
+        let mut sorted = x.clone();
+        sorted.sort_by(f64::total_cmp);
+        let lim = Limits { nominal: Some(0.0), lsl: Some(-10.0), usl: Some(10.0) };
+        for m in fit_all(&sorted, &lim) {
+            prop_assert!(!m.loglik.is_nan(), "{} loglik", m.name);
+            let c = m.capability;
+            prop_assert!(!(c.median.is_nan()), "{} median", m.name);
+        }
+        if let Some(chart) = individuals(&x) {
+            let _ = signals(&chart, &[1, 2, 3, 4, 5, 6, 7, 8]);
+        }
+        let groups: Vec<Vec<f64>> = x.chunks(subgroup).map(|c| c.to_vec()).collect();
+        for use_sd in [false, true] {
+            if let Some(chart) = subgroups(&groups, use_sd) {
+                let _ = signals(&chart, &[1, 2, 3, 4, 5, 6, 7, 8]);
+            }
+        }
+        let slices: Vec<&[f64]> = groups.iter().map(|g| g.as_slice()).collect();
+        for t in [anova(&slices), kruskal_wallis(&slices), levene(&slices, true)].into_iter().flatten() {
+            prop_assert!((0.0..=1.0).contains(&t.p), "p {}", t.p);
+        }
     }
 }

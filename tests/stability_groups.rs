@@ -9,7 +9,7 @@ use common::*;
 #[test]
 fn ds1_individuals_chart_matches_the_worked_example() {
     // capability_ds1_expected.csv: x̄ ± 2.66·MR̄ and 3.267·MR̄ (the table's rounded factors,
-    // hence 1e-4); exact factors 3/d2(2) and D4(2) from control_constants.csv.
+    // hence 1e-4); exact: 3/d2(2) with d2(2) = 2/√π.
     let x = column("ds1_shaft_od.csv");
     let exp = table("capability_ds1_expected.csv");
     let c = individuals(&x).unwrap();
@@ -17,7 +17,7 @@ fn ds1_individuals_chart_matches_the_worked_example() {
     let mr = value(&exp, "MRbar");
     close(
         c.location.ucl,
-        value(&exp, "mean") + 3.0 / 1.1283791671 * mr,
+        value(&exp, "mean") + 3.0 / std::f64::consts::FRAC_2_SQRT_PI * mr,
         1e-9,
         "UCL exact",
     );

@@ -73,6 +73,28 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
         &mut written,
     )?;
 
+    // Two spacer suppliers side by side: which one is off-centre?
+    let spacer_files = vec![path("orrin_spacers.tsv"), path("brask_spacers.csv")];
+    let spacer_sheet = intake::read_spec_sheets(&[path("orrin_specs.csv")])?;
+    let spacers = intake::read_files(&spacer_files, &ReadOptions::default(), &spacer_sheet)?;
+    let spacer_specs = intake::merge_specs(&spacer_sheet, &spacers.embedded_specs)?;
+    let by_supplier = StudySettings {
+        by: Some(intake::SOURCE_FILE.into()),
+        ..StudySettings::default()
+    };
+    let suppliers = CapabilityReport::new(
+        study(&spacers, &spacer_specs, &by_supplier)?,
+        spacers.audit.clone(),
+        0.95,
+        DEFAULT_ALPHA,
+    );
+    write(
+        &args.out,
+        "capability_spacer_suppliers.txt",
+        &suppliers.table(false),
+        &mut written,
+    )?;
+
     let stack = read_stack(&data_dir.join("end_play.toml"))?;
     let stack_data = load_stack_data(&stack)?;
     let model = build_model(&stack, &stack_data)?;

@@ -160,7 +160,7 @@ impl Render for CapabilityReport {
                 num(f.model.as_ref().and_then(|m| m.capability.ppk), 3).into(),
                 match &f.stability {
                     Some(s) => Cell::flagged(
-                        format!("{}/{:.1}", s.signals.len(), s.expected_by_chance),
+                        format!("{}/{:.1}", s.signal_count, s.expected_by_chance),
                         !s.signals.is_empty(),
                     ),
                     None => "-".into(),
@@ -279,7 +279,7 @@ impl Render for CapabilityReport {
                     .map_or(String::new(), |s| s.stable.to_string()),
                 f.stability
                     .as_ref()
-                    .map_or(String::new(), |s| s.signals.len().to_string()),
+                    .map_or(String::new(), |s| s.signal_count.to_string()),
             ];
             out.push_str(&fields.join(","));
             out.push('\n');

@@ -2,6 +2,25 @@
 
 use super::integrate::integrate;
 use super::normal::cdf;
+use std::collections::BTreeMap;
+use std::sync::Mutex;
+
+type Cache = Mutex<BTreeMap<usize, f64>>;
+static D2: Cache = Mutex::new(BTreeMap::new());
+static D3: Cache = Mutex::new(BTreeMap::new());
+
+/// The integrals cost milliseconds (d3 is a double integral) and charts ask for the same m
+/// once per subgroup: each m is computed once per run.
+fn cached(cache: &Cache, m: usize, compute: fn(usize) -> f64) -> f64 {
+    if let Some(v) = cache.lock().ok().and_then(|c| c.get(&m).copied()) {
+        return v;
+    }
+    let v = compute(m);
+    if let Ok(mut c) = cache.lock() {
+        c.insert(m, v);
+    }
+    v
+}
 
 /// Half-width of the integration range in σ: the integrands are below 1e-30 beyond it.
 const RANGE: f64 = 12.0;
@@ -12,6 +31,10 @@ const RANGE: f64 = 12.0;
 /// d2(m) = ∫ [1 − (1 − Φ(x))ᵐ − Φ(x)ᵐ] dx (Tippett 1925). Checked against the published table
 /// (ASTM MNL-7, "Factors for constructing control charts"), d2(2) = 2/√π exactly.
 pub fn d2(m: usize) -> f64 {
+    cached(&D2, m, d2_integral)
+}
+
+fn d2_integral(m: usize) -> f64 {
     if m < 2 {
         return f64::NAN;
     }
@@ -33,6 +56,10 @@ pub fn d2(m: usize) -> f64 {
 /// d3² = E[R²] − d2², E[R²] = 2∬_{x<y} [1 − Φ(y)ᵐ − (1 − Φ(x))ᵐ + (Φ(y) − Φ(x))ᵐ] dx dy.
 /// d3(2) = √(2 − 4/π) exactly.
 pub fn d3(m: usize) -> f64 {
+    cached(&D3, m, d3_integral)
+}
+
+fn d3_integral(m: usize) -> f64 {
     if m < 2 {
         return f64::NAN;
     }

@@ -9,6 +9,7 @@
 
 use super::capability::{Limits, Ppm};
 use super::distribution::{box_cox, Distribution};
+use super::normal;
 use serde::Serialize;
 use statrs::function::gamma::digamma;
 use std::collections::BTreeMap;
@@ -18,6 +19,12 @@ pub const MIN_FIT_N: usize = 5;
 /// ΔAIC within which the normal model is kept over a better-scoring one: models within 2 have
 /// substantial support (Burnham & Anderson 2002, Model Selection and Multimodel Inference §2.6).
 pub const AIC_TIE: f64 = 2.0;
+/// Above this many values the threshold and Box–Cox λ are searched on evenly spaced order
+/// statistics (see [`search_sample`]): the search costs dozens of fits, the final fit one.
+pub const SEARCH_N: usize = 2000;
+/// Above this many values the fitted cdf in Anderson–Darling is interpolated between exact
+/// evaluations (see [`anderson_darling_fitted`]).
+pub const EXACT_AD_N: usize = 4096;
 
 pub const MODEL_NAMES: [&str; 8] = [
     "normal",
@@ -81,7 +88,7 @@ pub fn fit_all(sorted: &[f64], limits: &Limits) -> Vec<FittedModel> {
 /// One family by name.
 pub fn fit_named(name: &str, sorted: &[f64], limits: &Limits) -> Option<FittedModel> {
     let name = canonical(name)?;
-    if sorted.len() < MIN_FIT_N || !(sorted[sorted.len() - 1] > sorted[0]) {
+    if sorted.len() < MIN_FIT_N || sorted[sorted.len() - 1] <= sorted[0] {
         return None;
     }
     let positive = sorted[0] > 0.0;
@@ -130,7 +137,7 @@ fn finish(
     sorted: &[f64],
     limits: &Limits,
 ) -> FittedModel {
-    let loglik: f64 = sorted.iter().map(|&x| distribution.ln_pdf(x)).sum();
+    let loglik = distribution.loglik(sorted);
     FittedModel {
         name,
         params: params(&distribution),
@@ -224,15 +231,57 @@ pub fn percentile_capability(d: &Distribution, limits: &Limits) -> PercentileCap
 }
 
 /// A² = −n − (1/n)·Σ(2i − 1)[ln F(x₍ᵢ₎) + ln(1 − F(x₍ₙ₊₁₋ᵢ₎))] with F the fitted model.
+/// Above [`EXACT_AD_N`] values, F is evaluated exactly at that many evenly spaced order
+/// statistics and, in between, interpolated linearly in x on the normal-score scale Φ⁻¹(F),
+/// which is smooth for every family here (the test checks the agreement).
 pub fn anderson_darling_fitted(sorted: &[f64], d: &Distribution) -> f64 {
     let n = sorted.len();
     let tiny = f64::MIN_POSITIVE;
+    // (ln F, ln(1 − F)) at each value, from normal scores.
+    let logs: Vec<(f64, f64)> = if n <= EXACT_AD_N {
+        sorted
+            .iter()
+            .map(|&x| (d.cdf(x).max(tiny).ln(), d.sf(x).max(tiny).ln()))
+            .collect()
+    } else {
+        let knots: Vec<usize> = (0..EXACT_AD_N)
+            .map(|i| i * (n - 1) / (EXACT_AD_N - 1))
+            .collect();
+        let score = |x: f64| {
+            let (c, s) = (d.cdf(x), d.sf(x));
+            if c < 0.5 {
+                normal::quantile(c.max(tiny))
+            } else {
+                -normal::quantile(s.max(tiny))
+            }
+        };
+        let z: Vec<f64> = knots.iter().map(|&k| score(sorted[k])).collect();
+        let mut out = Vec::with_capacity(n);
+        let mut j = 0;
+        for (i, &x) in sorted.iter().enumerate() {
+            while j + 1 < knots.len() - 1 && knots[j + 1] <= i {
+                j += 1;
+            }
+            let (x0, x1) = (sorted[knots[j]], sorted[knots[j + 1]]);
+            let zi = if x1 > x0 {
+                z[j] + (z[j + 1] - z[j]) * (x - x0) / (x1 - x0)
+            } else {
+                z[j]
+            };
+            // One tail by erfc, the other by complement: each side keeps its digits.
+            let (lower, upper) = if zi < 0.0 {
+                let c = normal::cdf(zi);
+                (c, 1.0 - c)
+            } else {
+                let u = normal::sf(zi);
+                (1.0 - u, u)
+            };
+            out.push((lower.max(tiny).ln(), upper.max(tiny).ln()));
+        }
+        out
+    };
     let s: f64 = (0..n)
-        .map(|i| {
-            let lower = d.cdf(sorted[i]).max(tiny).ln();
-            let upper = d.sf(sorted[n - 1 - i]).max(tiny).ln();
-            (2 * i + 1) as f64 * (lower + upper)
-        })
+        .map(|i| (2 * i + 1) as f64 * (logs[i].0 + logs[n - 1 - i].1))
         .sum();
     -(n as f64) - s / n as f64
 }
@@ -314,6 +363,18 @@ fn weibull_ml(x: &[f64], threshold: f64) -> Option<Distribution> {
         }
         s1 / s0 - 1.0 / k - mean_lz
     };
+    // Newton on g (increasing and concave in k), safeguarded by a bracket.
+    let g_and_slope = |k: f64| {
+        let (mut s0, mut s1, mut s2) = (0.0, 0.0, 0.0);
+        for &l in &lz {
+            let p = (k * l).exp();
+            s0 += p;
+            s1 += p * l;
+            s2 += p * l * l;
+        }
+        let m1 = s1 / s0;
+        (m1 - 1.0 / k - mean_lz, s2 / s0 - m1 * m1 + 1.0 / (k * k))
+    };
     let (mut lo, mut hi) = (1e-3, 1.0);
     while g(hi) < 0.0 {
         lo = hi;
@@ -322,7 +383,26 @@ fn weibull_ml(x: &[f64], threshold: f64) -> Option<Distribution> {
             return None;
         }
     }
-    let k = bisect(g, lo, hi)?;
+    let mut k = 0.5 * (lo + hi);
+    for _ in 0..100 {
+        let (v, slope) = g_and_slope(k);
+        if v < 0.0 {
+            lo = k;
+        } else {
+            hi = k;
+        }
+        let next = k - v / slope;
+        let next = if next > lo && next < hi {
+            next
+        } else {
+            0.5 * (lo + hi)
+        };
+        if (next - k).abs() <= 1e-13 * k {
+            k = next;
+            break;
+        }
+        k = next;
+    }
     let mean_pow = lz.iter().map(|l| (k * l).exp()).sum::<f64>() / lz.len() as f64;
     Some(Distribution::Weibull {
         threshold,
@@ -385,17 +465,18 @@ fn bisect(f: impl Fn(f64) -> f64, lo: f64, hi: f64) -> Option<f64> {
 fn threshold_ml(sorted: &[f64], family: &str) -> Option<(Distribution, bool)> {
     let min = sorted[0];
     let range = sorted[sorted.len() - 1] - min;
-    let fit = |gap: f64| -> Option<Distribution> {
+    let fit = |x: &[f64], gap: f64| -> Option<Distribution> {
         let t = min - gap;
         match family {
-            "lognormal" => Some(lognormal_ml(sorted, t)),
-            "weibull" => weibull_ml(sorted, t),
-            _ => gamma_ml(sorted, t),
+            "lognormal" => Some(lognormal_ml(x, t)),
+            "weibull" => weibull_ml(x, t),
+            _ => gamma_ml(x, t),
         }
     };
+    let sample = search_sample(sorted);
     let profile = |lg: f64| -> f64 {
-        fit(lg.exp()).map_or(f64::NEG_INFINITY, |d| {
-            sorted.iter().map(|&x| d.ln_pdf(x)).sum::<f64>()
+        fit(&sample, lg.exp()).map_or(f64::NEG_INFINITY, |d| {
+            sample.iter().map(|&x| d.ln_pdf(x)).sum::<f64>()
         })
     };
     let (a, b) = ((range * 1e-4).ln(), (range * 1e2).ln());
@@ -409,18 +490,9 @@ fn threshold_ml(sorted: &[f64], family: &str) -> Option<(Distribution, bool)> {
         return None;
     }
     let edge = best == 0;
-    let (mut lo, mut hi) = (grid[best.saturating_sub(1)], grid[(best + 1).min(steps)]);
-    let phi = (5f64.sqrt() - 1.0) / 2.0;
-    for _ in 0..60 {
-        let c = hi - phi * (hi - lo);
-        let d = lo + phi * (hi - lo);
-        if profile(c) > profile(d) {
-            hi = d;
-        } else {
-            lo = c;
-        }
-    }
-    let d = fit((0.5 * (lo + hi)).exp())?;
+    let (lo, hi) = (grid[best.saturating_sub(1)], grid[(best + 1).min(steps)]);
+    let lg = golden_max(profile, lo, hi, 1e-6);
+    let d = fit(sorted, lg.exp())?;
     Some((d, edge))
 }
 
@@ -432,7 +504,8 @@ fn boxcox_ml(sorted: &[f64]) -> Option<(Distribution, bool)> {
     let min = sorted[0];
     let range = sorted[sorted.len() - 1] - min;
     let shift = if min > 0.0 { 0.0 } else { -min + range / 100.0 };
-    let x: Vec<f64> = sorted.iter().map(|v| v + shift).collect();
+    let sample = search_sample(sorted);
+    let x: Vec<f64> = sample.iter().map(|v| v + shift).collect();
     let sum_ln: f64 = x.iter().map(|v| v.ln()).sum();
     let n = x.len() as f64;
     let llf = |lambda: f64| -> f64 {
@@ -443,18 +516,10 @@ fn boxcox_ml(sorted: &[f64]) -> Option<(Distribution, bool)> {
     };
     let grid: Vec<f64> = (0..=40).map(|i| -5.0 + 0.25 * i as f64).collect();
     let best = (0..grid.len()).max_by(|&i, &j| llf(grid[i]).total_cmp(&llf(grid[j])))?;
-    let (mut lo, mut hi) = (grid[best.saturating_sub(1)], grid[(best + 1).min(40)]);
-    let phi = (5f64.sqrt() - 1.0) / 2.0;
-    for _ in 0..80 {
-        let c = hi - phi * (hi - lo);
-        let d = lo + phi * (hi - lo);
-        if llf(c) > llf(d) {
-            hi = d;
-        } else {
-            lo = c;
-        }
-    }
-    let lambda = 0.5 * (lo + hi);
+    let (lo, hi) = (grid[best.saturating_sub(1)], grid[(best + 1).min(40)]);
+    let lambda = golden_max(llf, lo, hi, 1e-9);
+    let x: Vec<f64> = sorted.iter().map(|v| v + shift).collect();
+    let n = x.len() as f64;
     let y: Vec<f64> = x.iter().map(|&v| box_cox(v, lambda)).collect();
     let m = mean(&y);
     let sd = (y.iter().map(|v| (v - m).powi(2)).sum::<f64>() / n).sqrt();
@@ -470,6 +535,43 @@ fn boxcox_ml(sorted: &[f64]) -> Option<(Distribution, bool)> {
         },
         shift != 0.0,
     ))
+}
+
+/// Maximises f on [lo, hi] by golden section, one evaluation per step, to a bracket of `tol`.
+fn golden_max(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64, tol: f64) -> f64 {
+    let phi = (5f64.sqrt() - 1.0) / 2.0;
+    let mut c = hi - phi * (hi - lo);
+    let mut d = lo + phi * (hi - lo);
+    let (mut fc, mut fd) = (f(c), f(d));
+    while hi - lo > tol {
+        if fc > fd {
+            hi = d;
+            d = c;
+            fd = fc;
+            c = hi - phi * (hi - lo);
+            fc = f(c);
+        } else {
+            lo = c;
+            c = d;
+            fc = fd;
+            d = lo + phi * (hi - lo);
+            fd = f(d);
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+/// Values the parameter searches run on: all of them up to [`SEARCH_N`], else that many evenly
+/// spaced order statistics (the final parameters are then fitted to all values).
+fn search_sample(sorted: &[f64]) -> std::borrow::Cow<'_, [f64]> {
+    let n = sorted.len();
+    if n <= SEARCH_N {
+        return sorted.into();
+    }
+    (0..SEARCH_N)
+        .map(|i| sorted[(i * (n - 1)) / (SEARCH_N - 1)])
+        .collect::<Vec<f64>>()
+        .into()
 }
 
 /// The canonical name of a family, for matching `--model`.
