@@ -7,7 +7,7 @@ use crate::intake::{self, Dataset, ReadOptions, SpecSet};
 use crate::stack::file::{Source, StackFile};
 use crate::stack::model::{ContributorModel, PartGroup, StackModel};
 use crate::stats::capability::{capability, CapabilityOptions, Limits};
-use crate::stats::moments::covariance;
+use crate::stats::moments::pairwise_covariance;
 use crate::stats::within::WithinMethod;
 use crate::study::{build_stability, chart_for, model_for, StudySettings};
 use std::collections::BTreeMap;
@@ -179,17 +179,10 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
                 if pi == pj {
                     let ds = &data.files[pi].0;
                     let (x, y) = (&ds.features[fi].values, &ds.features[fj].values);
-                    let (a, b): (Vec<f64>, Vec<f64>) = x
-                        .iter()
-                        .zip(y)
-                        .filter(|(a, b)| !a.is_nan() && !b.is_nan())
-                        .map(|(a, b)| (*a, *b))
-                        .unzip();
-                    if a.len() >= 3 {
-                        let c = covariance(&a, &b);
+                    if let Some((c, pairs)) = pairwise_covariance(x, y) {
                         cov[i][j] = c;
                         cov[j][i] = c;
-                        paired.push((i, j, a.len()));
+                        paired.push((i, j, pairs));
                     }
                 }
             }

@@ -7,7 +7,7 @@
 //! parts at a time, the others fixed, shows whose sample size the uncertainty comes from.
 
 use super::model::{normal_rejects, StackModel};
-use crate::stats::moments::covariance;
+use crate::stats::moments::pairwise_covariance;
 use rand::{RngCore, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
@@ -174,14 +174,7 @@ fn replicate_ppm(model: &StackModel, groups: &[usize], rng: &mut Xoshiro256PlusP
                 if model.covariance[i][j] == 0.0 {
                     continue;
                 }
-                let (a, b): (Vec<f64>, Vec<f64>) = drawn[m]
-                    .iter()
-                    .zip(&drawn[m2])
-                    .filter(|(a, b)| !a.is_nan() && !b.is_nan())
-                    .map(|(a, b)| (*a, *b))
-                    .unzip();
-                if a.len() >= 3 {
-                    let c = covariance(&a, &b);
+                if let Some((c, _)) = pairwise_covariance(&drawn[m], &drawn[m2]) {
                     cov[i][j] = c;
                     cov[j][i] = c;
                 }

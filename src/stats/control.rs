@@ -266,6 +266,26 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
     out
 }
 
+fn sign(v: f64) -> i8 {
+    if v > 0.0 {
+        1
+    } else if v < 0.0 {
+        -1
+    } else {
+        0
+    }
+}
+
+/// A run's length after one more point: extended, or restarted at 1 (0 when the point cannot
+/// start one, e.g. on the centre line).
+fn run_after(run: usize, extends: bool, starts: bool) -> usize {
+    if extends {
+        run + 1
+    } else {
+        usize::from(starts)
+    }
+}
+
 /// The Nelson tests on standardised points: (point, rule) for every signal, by point then rule.
 pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
     let on = |r: u8| rules.contains(&r);
@@ -276,39 +296,14 @@ pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
     let (mut within_run, mut beyond_run) = (0usize, 0usize);
     for i in 0..z.len() {
         let v = z[i];
-        let s = if v > 0.0 {
-            1
-        } else if v < 0.0 {
-            -1
-        } else {
-            0
-        };
-        side_run = if s != 0 && s == side {
-            side_run + 1
-        } else {
-            usize::from(s != 0)
-        };
+        let s = sign(v);
+        side_run = run_after(side_run, s != 0 && s == side, s != 0);
         side = s;
         if i > 0 {
-            let d = z[i] - z[i - 1];
-            let step = if d > 0.0 {
-                1
-            } else if d < 0.0 {
-                -1
-            } else {
-                0
-            };
-            trend_run = if step != 0 && step == trend {
-                trend_run + 1
-            } else {
-                usize::from(step != 0)
-            };
+            let step = sign(z[i] - z[i - 1]);
+            trend_run = run_after(trend_run, step != 0 && step == trend, step != 0);
             trend = step;
-            alt_run = if step != 0 && step == -last_step {
-                alt_run + 1
-            } else {
-                usize::from(step != 0)
-            };
+            alt_run = run_after(alt_run, step != 0 && step == -last_step, step != 0);
             last_step = step;
         }
         within_run = if v.abs() < 1.0 { within_run + 1 } else { 0 };

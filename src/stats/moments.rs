@@ -103,3 +103,15 @@ pub fn covariance(x: &[f64], y: &[f64]) -> f64 {
         .sum::<f64>()
         / (n as f64 - 1.0)
 }
+
+/// Covariance over the pairs where both values are present (not NaN), with the pair count;
+/// `None` below 3 pairs.
+pub fn pairwise_covariance(x: &[f64], y: &[f64]) -> Option<(f64, usize)> {
+    let (a, b): (Vec<f64>, Vec<f64>) = x
+        .iter()
+        .zip(y)
+        .filter(|(a, b)| !a.is_nan() && !b.is_nan())
+        .map(|(a, b)| (*a, *b))
+        .unzip();
+    (a.len() >= 3).then(|| (covariance(&a, &b), a.len()))
+}
