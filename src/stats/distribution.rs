@@ -86,7 +86,24 @@ impl Distribution {
                     gamma_lr(shape, (x - threshold) / scale)
                 }
             }
-            Self::BoxCox { .. } => 1.0 - self.sf(x),
+            Self::BoxCox {
+                lambda,
+                shift,
+                mean,
+                sd,
+            } => {
+                let s = x + shift;
+                if s <= 0.0 {
+                    // The transformed normal's part below −1/λ has no preimage (λ > 0) and is
+                    // counted at the domain's edge, as in `sf`.
+                    return if lambda > 0.0 {
+                        normal::cdf((-1.0 / lambda - mean) / sd)
+                    } else {
+                        0.0
+                    };
+                }
+                normal::cdf((box_cox(s, lambda) - mean) / sd)
+            }
         }
     }
 
