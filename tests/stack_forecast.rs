@@ -276,11 +276,12 @@ fn stack_file_errors_name_the_file_the_contributor_and_the_key() {
     ]);
     assert!(e.contains("key 'feature'") && e.contains("height"), "{e}");
     let e = stack_error(&[
-        ("s.toml", &format!("{REQ}[[contributor]]\nname = \"x\"\nsensitivity = 1.0\nnominal = 1.0\ntolerance = 0.1\ndata = \"d.csv\"\nfeature = \"depth\"\nsimulate = \"fitted\"\n")),
+        ("s.toml", &format!("{REQ}[[contributor]]\nname = \"x\"\nsensitivity = 1.0\nnominal = 1.0\ntolerance = 0.1\ndata = \"d.csv\"\nfeature = \"depth\"\nsimulate = \"bootstrap\"\n")),
         ("d.csv", "part,depth\nP1,1.0\nP2,1.1\n"),
     ]);
     assert!(
-        e.contains("key 'simulate'") && e.contains("'fitted' is not one of parts, normal"),
+        e.contains("key 'simulate'")
+            && e.contains("'bootstrap' is not one of parts, normal, fitted"),
         "{e}"
     );
     let e = stack_error(&[("s.toml", &format!("{REQ}[[contributor]]\nname = \"x\"\nsensitivity = 1.0\nnominal = 1.0\ntolerance = 0.1\nmean = 1.0\nsd = 0.1\nsimulate = \"parts\"\n"))]);

@@ -437,3 +437,52 @@ fn bad_simulation_options_are_usage_errors() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("150%"));
 }
+
+#[test]
+fn fitted_models_are_drawn_with_their_own_tails() {
+    // One contributor drawn from each family: the simulated rate above the USL must cover the
+    // model's own sf(USL) (closed forms; gamma's from statrs' incomplete gamma).
+    use capstack::stats::distribution::Distribution as Model;
+    let models = [
+        Model::Lognormal {
+            threshold: 0.0,
+            mu: (0.008f64).ln(),
+            sigma: 0.45,
+        },
+        Model::Weibull {
+            threshold: 0.001,
+            shape: 1.6,
+            scale: 0.008,
+        },
+        Model::Gamma {
+            threshold: 0.0,
+            shape: 3.0,
+            scale: 0.003,
+        },
+        Model::BoxCox {
+            lambda: 0.3,
+            shift: 0.0,
+            mean: -2.5,
+            sd: 0.2,
+        },
+    ];
+    for (k, fitted) in models.into_iter().enumerate() {
+        let usl = fitted.quantile(0.999);
+        let mut c = contributor("runout", 1.0, 0.0, 0.03, 0.0, 0.01);
+        c.sampling = Some(Sampling::Fitted);
+        c.fitted = Some(fitted);
+        c.model_name = Some("model");
+        let mut m = model(vec![c], -1.0, usl, 1.0, 1.0);
+        m.requirement.lsl = None;
+        let sim = simulate(&m, &settings(2_000_000, k as u64), &mut quiet);
+        assert!(sim.draws[0].draw.starts_with("fitted"), "{:?}", sim.draws);
+        let want = fitted.sf(usl) * 1e6;
+        close(want, 1000.0, 1e-6, "the 0.999 quantile leaves 1000 ppm");
+        assert!(
+            sim.ppm_low <= want && want <= sim.ppm_high,
+            "{fitted:?}: {}..{} vs {want}",
+            sim.ppm_low,
+            sim.ppm_high
+        );
+    }
+}

@@ -96,6 +96,9 @@ pub enum Sampling {
     Parts,
     /// A normal distribution with the measured mean and sd, independent of the others.
     Normal,
+    /// The distribution model fitted to the measured parts (as `capability --model auto`
+    /// chooses it), independent of the others.
+    Fitted,
 }
 
 /// Where a contributor's statistics come from.
@@ -308,10 +311,11 @@ pub fn parse_stack(text: &str, path: &Path) -> Result<StackFile, InputError> {
                 let sampling = match c.simulate.as_deref().unwrap_or("parts") {
                     "parts" => Sampling::Parts,
                     "normal" => Sampling::Normal,
+                    "fitted" => Sampling::Fitted,
                     other => {
                         return Err(cerr(
                             "simulate",
-                            format!("'{other}' is not one of parts, normal"),
+                            format!("'{other}' is not one of parts, normal, fitted"),
                         ))
                     }
                 };

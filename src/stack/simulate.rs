@@ -47,14 +47,19 @@ enum Sampler {
         mean: f64,
         half_width: f64,
     },
+    /// A fitted model of the measured parts.
+    Fitted {
+        i: usize,
+        model: Fitted,
+    },
 }
 
 /// How each contributor was drawn, for the output.
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct DrawnAs {
     pub name: String,
-    /// `parts`, `normal`, `uniform` or `triangular`.
-    pub draw: &'static str,
+    /// `parts`, `normal`, `uniform`, `triangular`, or `fitted <family>`.
+    pub draw: String,
     /// Parts resampled (those on which every contributor of that file was measured).
     pub parts: Option<usize>,
 }
@@ -90,7 +95,7 @@ impl SimulationPlan {
             for &m in &by_parts {
                 drawn_as[g.members[m]] = Some(DrawnAs {
                     name: model.contributors[g.members[m]].name.clone(),
-                    draw: "parts",
+                    draw: "parts".into(),
                     parts: Some(rows.len()),
                 });
             }
@@ -104,6 +109,18 @@ impl SimulationPlan {
         }
         for (i, c) in model.contributors.iter().enumerate() {
             if drawn_as[i].is_some() {
+                continue;
+            }
+            if let (Some(Sampling::Fitted), Some(fitted)) = (c.sampling, c.fitted) {
+                samplers.push(Sampler::Fitted {
+                    i,
+                    model: Fitted::new(fitted),
+                });
+                drawn_as[i] = Some(DrawnAs {
+                    name: c.name.clone(),
+                    draw: format!("fitted {}", c.model_name.unwrap_or("model")),
+                    parts: None,
+                });
                 continue;
             }
             let (sampler, draw) = match c.distribution.unwrap_or(Distribution::Normal) {
@@ -135,7 +152,7 @@ impl SimulationPlan {
             samplers.push(sampler);
             drawn_as[i] = Some(DrawnAs {
                 name: c.name.clone(),
-                draw,
+                draw: draw.into(),
                 parts: None,
             });
         }
@@ -200,6 +217,11 @@ impl SimulationPlan {
                         *out = mean + half_width * (2.0 * u - 1.0);
                     }
                 }
+                Sampler::Fitted { i, model } => {
+                    for out in columns[*i].iter_mut() {
+                        *out = model.draw(&mut rng);
+                    }
+                }
                 Sampler::Triangular {
                     i,
                     mean,
@@ -247,6 +269,122 @@ impl SimulationPlan {
         }
         t.samples = len as u64;
         t
+    }
+}
+
+/// A fitted model ready to draw from: by transforming standard draws, never by a numerical
+/// inverse cdf (gamma by Marsaglia–Tsang in rand_distr).
+#[derive(Debug, Clone)]
+enum Fitted {
+    Normal {
+        mean: f64,
+        sd: f64,
+    },
+    Lognormal {
+        threshold: f64,
+        mu: f64,
+        sigma: f64,
+    },
+    Weibull {
+        threshold: f64,
+        shape: f64,
+        scale: f64,
+    },
+    Gamma {
+        threshold: f64,
+        gamma: rand_distr::Gamma<f64>,
+    },
+    BoxCox {
+        lambda: f64,
+        shift: f64,
+        mean: f64,
+        sd: f64,
+    },
+}
+
+impl Fitted {
+    fn new(d: crate::stats::distribution::Distribution) -> Self {
+        use crate::stats::distribution::Distribution as D;
+        match d {
+            D::Normal { mean, sd } => Self::Normal { mean, sd },
+            D::Lognormal {
+                threshold,
+                mu,
+                sigma,
+            } => Self::Lognormal {
+                threshold,
+                mu,
+                sigma,
+            },
+            D::Weibull {
+                threshold,
+                shape,
+                scale,
+            } => Self::Weibull {
+                threshold,
+                shape,
+                scale,
+            },
+            D::Gamma {
+                threshold,
+                shape,
+                scale,
+            } => match rand_distr::Gamma::new(shape, scale) {
+                Ok(gamma) => Self::Gamma { threshold, gamma },
+                Err(_) => Self::Normal {
+                    mean: threshold + shape * scale,
+                    sd: shape.sqrt() * scale,
+                },
+            },
+            D::BoxCox {
+                lambda,
+                shift,
+                mean,
+                sd,
+            } => Self::BoxCox {
+                lambda,
+                shift,
+                mean,
+                sd,
+            },
+        }
+    }
+
+    fn draw(&self, rng: &mut Xoshiro256PlusPlus) -> f64 {
+        match self {
+            Self::Normal { mean, sd } => mean + sd * rng.sample::<f64, _>(StandardNormal),
+            Self::Lognormal {
+                threshold,
+                mu,
+                sigma,
+            } => threshold + (mu + sigma * rng.sample::<f64, _>(StandardNormal)).exp(),
+            Self::Weibull {
+                threshold,
+                shape,
+                scale,
+            } => {
+                // Inversion: scale·(−ln U)^(1/shape), U in (0, 1].
+                let u: f64 = 1.0 - rng.random::<f64>();
+                threshold + scale * (-u.ln()).powf(1.0 / shape)
+            }
+            Self::Gamma { threshold, gamma } => threshold + rng.sample(gamma),
+            Self::BoxCox {
+                lambda,
+                shift,
+                mean,
+                sd,
+            } => {
+                let y = mean + sd * rng.sample::<f64, _>(StandardNormal);
+                let s = if lambda.abs() < 1e-12 {
+                    y.exp()
+                } else {
+                    // Below the transform's range the draw sits at the domain's edge, as the
+                    // model's cdf counts it.
+                    (lambda * y + 1.0).max(0.0).powf(1.0 / lambda)
+                };
+                s - shift
+            }
+        }
     }
 }
 
