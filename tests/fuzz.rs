@@ -54,7 +54,8 @@ const STRUCTURAL: &[u8] = b",;\t\n\r\"'.-+eE0123456789=[]#\\ \xef\xbb\xbf\xff\x0
 fn mutation() -> impl Strategy<Value = Mutation> {
     prop_oneof![
         (any::<usize>(), any::<u8>()).prop_map(|(i, b)| Mutation::Flip(i, b)),
-        (any::<usize>(), prop::sample::select(STRUCTURAL)).prop_map(|(i, b)| Mutation::Insert(i, b)),
+        (any::<usize>(), prop::sample::select(STRUCTURAL))
+            .prop_map(|(i, b)| Mutation::Insert(i, b)),
         (any::<usize>(), 1usize..64).prop_map(|(i, n)| Mutation::Delete(i, n)),
         any::<usize>().prop_map(Mutation::Truncate),
         (any::<usize>(), 1usize..200).prop_map(|(i, n)| Mutation::Duplicate(i, n)),
@@ -105,14 +106,18 @@ fn grammar_table() -> impl Strategy<Value = Vec<u8>> {
         "[a-z]{1,6}".prop_map(|s| s),
     ];
     let delim = prop::sample::select(vec![",", ";", "\t"]);
-    (delim, prop::collection::vec(prop::collection::vec(cell, 1..8), 1..40)).prop_map(|(d, rows)| {
-        let mut out = String::new();
-        for r in rows {
-            out.push_str(&r.join(d));
-            out.push('\n');
-        }
-        out.into_bytes()
-    })
+    (
+        delim,
+        prop::collection::vec(prop::collection::vec(cell, 1..8), 1..40),
+    )
+        .prop_map(|(d, rows)| {
+            let mut out = String::new();
+            for r in rows {
+                out.push_str(&r.join(d));
+                out.push('\n');
+            }
+            out.into_bytes()
+        })
 }
 
 fn read_and_study(bytes: &[u8], name: &str) {

@@ -1,5 +1,6 @@
 //! Invariants of the statistics and the stack (proptest).
 
+use capstack::intake::{read_files, ReadOptions, SpecSet};
 use capstack::stack::analytic::{measured, rss, worst_case};
 use capstack::stack::file::{Assumptions, Requirement};
 use capstack::stack::model::{ContributorModel, StackModel};
@@ -99,5 +100,60 @@ proptest! {
         for t in [anova(&slices), kruskal_wallis(&slices), levene(&slices, true)].into_iter().flatten() {
             prop_assert!((0.0..=1.0).contains(&t.p), "p {}", t.p);
         }
+    }
+
+    #[test]
+    fn any_layout_delimiter_and_decimal_style_reads_back_the_same_values_and_the_audit_adds_up(
+        values in prop::collection::vec(prop::collection::vec(prop_oneof![9 => -1e4f64..1e4, 1 => Just(f64::NAN)], 3), 2..30),
+        style in 0usize..4,
+        long in any::<bool>(),
+    ) {
+        // style: 0 ',' with '.', 1 ';' with ',', 2 tab with '.', 3 tab with ','.
+        let (delim, comma) = [(",", false), (";", true), ("\t", false), ("\t", true)][style];
+        let cell = |v: f64| {
+            if v.is_nan() { return String::new(); }
+            let t = format!("{v:.4}");
+            if comma { t.replace('.', ",") } else { t }
+        };
+        let mut text = String::new();
+        if long {
+            text.push_str(&["part", "feature", "value"].join(delim));
+            text.push('\n');
+            for (i, row) in values.iter().enumerate() {
+                for (j, v) in row.iter().enumerate() {
+                    text.push_str(&[format!("P{i}"), format!("f{j}"), cell(*v)].join(delim));
+                    text.push('\n');
+                }
+            }
+        } else {
+            text.push_str(&["part", "f0", "f1", "f2"].join(delim));
+            text.push('\n');
+            for (i, row) in values.iter().enumerate() {
+                let mut cells = vec![format!("P{i}")];
+                cells.extend(row.iter().map(|v| cell(*v)));
+                text.push_str(&cells.join(delim));
+                text.push('\n');
+            }
+        }
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("t.csv");
+        std::fs::write(&path, &text).unwrap();
+        let read = read_files(&[path.display().to_string()], &ReadOptions::default(), &SpecSet::default());
+        // A column left without any number is not a feature; skip those draws.
+        let all_present = (0..3).all(|j| values.iter().any(|r| !r[j].is_nan()));
+        prop_assume!(all_present);
+        let data = read.unwrap();
+        for j in 0..3 {
+            let f = data.features.iter().find(|f| f.name == format!("f{j}")).unwrap();
+            let got: Vec<f64> = f.values.iter().copied().filter(|v| !v.is_nan()).collect();
+            let want: Vec<f64> = values.iter().map(|r| r[j]).filter(|v| !v.is_nan()).map(|v| (v * 1e4).round() / 1e4).collect();
+            prop_assert_eq!(got.len(), want.len());
+            for (g, w) in got.iter().zip(&want) {
+                prop_assert!((g - w).abs() <= 1e-9 * w.abs().max(1.0), "{} vs {}", g, w);
+            }
+        }
+        let a = &data.audit;
+        prop_assert_eq!(a.rows_read, a.rows_used + a.rows_rejected);
+        prop_assert_eq!(a.cells_read, a.values_used + a.unused.len() as u64);
     }
 }
