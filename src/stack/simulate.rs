@@ -273,92 +273,35 @@ impl SimulationPlan {
 }
 
 /// A fitted model ready to draw from: by transforming standard draws, never by a numerical
-/// inverse cdf (gamma by Marsaglia–Tsang in rand_distr).
+/// inverse cdf (gamma by Marsaglia–Tsang in rand_distr, prepared once).
 #[derive(Debug, Clone)]
-enum Fitted {
-    Normal {
-        mean: f64,
-        sd: f64,
-    },
-    Lognormal {
-        threshold: f64,
-        mu: f64,
-        sigma: f64,
-    },
-    Weibull {
-        threshold: f64,
-        shape: f64,
-        scale: f64,
-    },
-    Gamma {
-        threshold: f64,
-        gamma: rand_distr::Gamma<f64>,
-    },
-    BoxCox {
-        lambda: f64,
-        shift: f64,
-        mean: f64,
-        sd: f64,
-    },
+struct Fitted {
+    model: crate::stats::distribution::Distribution,
+    gamma: Option<rand_distr::Gamma<f64>>,
 }
 
 impl Fitted {
-    fn new(d: crate::stats::distribution::Distribution) -> Self {
+    fn new(model: crate::stats::distribution::Distribution) -> Self {
+        let gamma = match model {
+            crate::stats::distribution::Distribution::Gamma { shape, scale, .. } => {
+                rand_distr::Gamma::new(shape, scale).ok()
+            }
+            _ => None,
+        };
+        Self { model, gamma }
+    }
+
+    fn draw(&self, rng: &mut Xoshiro256PlusPlus) -> f64 {
         use crate::stats::distribution::Distribution as D;
-        match d {
-            D::Normal { mean, sd } => Self::Normal { mean, sd },
+        let mut z = || rng.sample::<f64, _>(StandardNormal);
+        match self.model {
+            D::Normal { mean, sd } => mean + sd * z(),
             D::Lognormal {
                 threshold,
                 mu,
                 sigma,
-            } => Self::Lognormal {
-                threshold,
-                mu,
-                sigma,
-            },
+            } => threshold + (mu + sigma * z()).exp(),
             D::Weibull {
-                threshold,
-                shape,
-                scale,
-            } => Self::Weibull {
-                threshold,
-                shape,
-                scale,
-            },
-            D::Gamma {
-                threshold,
-                shape,
-                scale,
-            } => match rand_distr::Gamma::new(shape, scale) {
-                Ok(gamma) => Self::Gamma { threshold, gamma },
-                Err(_) => Self::Normal {
-                    mean: threshold + shape * scale,
-                    sd: shape.sqrt() * scale,
-                },
-            },
-            D::BoxCox {
-                lambda,
-                shift,
-                mean,
-                sd,
-            } => Self::BoxCox {
-                lambda,
-                shift,
-                mean,
-                sd,
-            },
-        }
-    }
-
-    fn draw(&self, rng: &mut Xoshiro256PlusPlus) -> f64 {
-        match self {
-            Self::Normal { mean, sd } => mean + sd * rng.sample::<f64, _>(StandardNormal),
-            Self::Lognormal {
-                threshold,
-                mu,
-                sigma,
-            } => threshold + (mu + sigma * rng.sample::<f64, _>(StandardNormal)).exp(),
-            Self::Weibull {
                 threshold,
                 shape,
                 scale,
@@ -367,14 +310,22 @@ impl Fitted {
                 let u: f64 = 1.0 - rng.random::<f64>();
                 threshold + scale * (-u.ln()).powf(1.0 / shape)
             }
-            Self::Gamma { threshold, gamma } => threshold + rng.sample(gamma),
-            Self::BoxCox {
+            D::Gamma {
+                threshold,
+                shape,
+                scale,
+            } => match &self.gamma {
+                Some(g) => threshold + rng.sample(g),
+                // Parameters rand_distr refuses: the normal of the same mean and sd.
+                None => threshold + shape * scale + shape.sqrt() * scale * z(),
+            },
+            D::BoxCox {
                 lambda,
                 shift,
                 mean,
                 sd,
             } => {
-                let y = mean + sd * rng.sample::<f64, _>(StandardNormal);
+                let y = mean + sd * z();
                 let s = if lambda.abs() < 1e-12 {
                     y.exp()
                 } else {
