@@ -129,3 +129,13 @@ pub fn demo_stack_file() -> (tempfile::TempDir, PathBuf) {
     let toml = d.path().join("end_play.toml");
     (d, toml)
 }
+
+/// The entry of `feature` in a capability JSON report.
+pub fn feature<'a>(v: &'a serde_json::Value, name: &str) -> &'a serde_json::Value {
+    v["features"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["feature"] == name)
+        .unwrap_or_else(|| panic!("no feature {name}"))
+}

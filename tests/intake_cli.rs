@@ -4,6 +4,7 @@
 mod common;
 use assert_cmd::Command;
 use common::dir_with;
+use common::feature;
 use serde_json::Value;
 
 fn capstack() -> Command {
@@ -23,15 +24,6 @@ fn json_of(dir: &std::path::Path, args: &[&str]) -> Value {
         String::from_utf8_lossy(&out.stderr)
     );
     serde_json::from_slice(&out.stdout).unwrap()
-}
-
-fn feature<'a>(v: &'a Value, name: &str) -> &'a Value {
-    v["features"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .find(|f| f["feature"] == name)
-        .unwrap_or_else(|| panic!("no feature {name}"))
 }
 
 fn error_of(dir: &std::path::Path, args: &[&str]) -> String {

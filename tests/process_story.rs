@@ -5,6 +5,7 @@ mod common;
 use assert_cmd::Command;
 use capstack::stats::distribution::Distribution;
 use capstack::stats::fit::anderson_darling_fitted;
+use common::feature;
 use serde_json::Value;
 
 fn capability(dir: &std::path::Path, args: &[&str]) -> (i32, Value, String) {
@@ -22,15 +23,6 @@ fn capability(dir: &std::path::Path, args: &[&str]) -> (i32, Value, String) {
         v,
         String::from_utf8_lossy(&out.stderr).into(),
     )
-}
-
-fn feature<'a>(v: &'a Value, name: &str) -> &'a Value {
-    v["features"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .find(|f| f["feature"] == name)
-        .unwrap()
 }
 
 #[test]

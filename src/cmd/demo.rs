@@ -56,16 +56,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
         &mut written,
     )?;
     write(&args.out, "capability.csv", &capability.csv(), &mut written)?;
-    let by_supplier_lot = StudySettings {
-        by: Some("lot".into()),
-        ..StudySettings::default()
-    };
-    let by_lot = CapabilityReport::new(
-        study(&data, &specs, &by_supplier_lot)?,
-        data.audit.clone(),
-        0.95,
-        DEFAULT_ALPHA,
-    );
+    let by_lot = grouped(&data, &specs, "lot")?;
     write(
         &args.out,
         "capability_by_lot.txt",
@@ -78,16 +69,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
     let spacer_sheet = intake::read_spec_sheets(&[path("orrin_specs.csv")])?;
     let spacers = intake::read_files(&spacer_files, &ReadOptions::default(), &spacer_sheet)?;
     let spacer_specs = intake::merge_specs(&spacer_sheet, &spacers.embedded_specs)?;
-    let by_supplier = StudySettings {
-        by: Some(intake::SOURCE_FILE.into()),
-        ..StudySettings::default()
-    };
-    let suppliers = CapabilityReport::new(
-        study(&spacers, &spacer_specs, &by_supplier)?,
-        spacers.audit.clone(),
-        0.95,
-        DEFAULT_ALPHA,
-    );
+    let suppliers = grouped(&spacers, &spacer_specs, intake::SOURCE_FILE)?;
     write(
         &args.out,
         "capability_spacer_suppliers.txt",
@@ -129,6 +111,24 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
         println!("wrote {w}");
     }
     Ok(Outcome::Done)
+}
+
+/// Capability per group of `by`, with the group comparisons.
+fn grouped(
+    data: &intake::Dataset,
+    specs: &intake::SpecSet,
+    by: &str,
+) -> Result<CapabilityReport, InputError> {
+    let settings = StudySettings {
+        by: Some(by.into()),
+        ..StudySettings::default()
+    };
+    Ok(CapabilityReport::new(
+        study(data, specs, &settings)?,
+        data.audit.clone(),
+        0.95,
+        DEFAULT_ALPHA,
+    ))
 }
 
 fn pretty(v: &serde_json::Value) -> String {
