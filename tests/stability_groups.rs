@@ -184,3 +184,19 @@ fn between_group_tests_match_scipy() {
     assert!(anova(&groups[..1]).is_none());
     assert!(anova(&[&[1.0, 1.0][..], &[1.0, 1.0][..]]).is_none());
 }
+
+#[test]
+fn a_moving_range_signal_is_placed_at_its_later_value_on_a_normal_scores_chart_too() {
+    // A jump between values 20 and 21 (0-based 19 and 20): moving range 19 belongs to value 20.
+    let mut x: Vec<f64> = (0..40).map(|i| ((i * 7) % 5) as f64 * 0.1).collect();
+    x[20] = 9.0;
+    for kind in ["individuals", "individuals_normal_scores"] {
+        let mut chart = individuals(&x).unwrap();
+        chart.kind = kind;
+        let first = signals(&chart, &[1])
+            .into_iter()
+            .find(|s| s.chart == "dispersion")
+            .unwrap();
+        assert_eq!(first.point, 20, "{kind}");
+    }
+}

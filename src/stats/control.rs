@@ -246,7 +246,7 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
         .collect();
     if rules.contains(&1) {
         // Moving range k belongs to value k + 1.
-        let offset = usize::from(chart.kind == "individuals");
+        let offset = usize::from(chart.kind.starts_with("individuals"));
         for (i, (v, u)) in chart
             .dispersion_points
             .iter()
