@@ -22,6 +22,8 @@ pub enum Command {
     Stack(StackArgs),
     /// What each contributor would need to reach a target reject rate, and how many parts to measure.
     Plan(PlanArgs),
+    /// A self-contained HTML report with charts: the answer, the assembly, each feature, the audit.
+    Report(Box<ReportArgs>),
     /// The whole job on the shipped sample scenario.
     Demo(DemoArgs),
 }
@@ -93,6 +95,19 @@ pub struct DataArgs {
 pub struct CapabilityArgs {
     #[command(flatten)]
     pub data: DataArgs,
+    #[command(flatten)]
+    pub study: StudyArgs,
+    /// Exit with code 1 when any feature is flagged.
+    #[arg(long)]
+    pub gate: bool,
+    #[command(flatten)]
+    pub out: OutputArgs,
+}
+
+/// How the capability study orders, groups and judges the values (shared by `capability` and
+/// `report`).
+#[derive(Args, Debug, Clone)]
+pub struct StudyArgs {
     /// Capability per group of this column (lot, cavity, supplier, source_file, …).
     #[arg(long, value_name = "COL")]
     pub by: Option<String>,
@@ -124,11 +139,38 @@ pub struct CapabilityArgs {
     /// Nelson tests for special causes to apply: a list such as 1,2,5, `all` or `none`.
     #[arg(long, default_value = "1,2,3,4", value_name = "LIST")]
     pub rules: String,
-    /// Exit with code 1 when any feature is flagged.
-    #[arg(long)]
-    pub gate: bool,
+}
+
+#[derive(Args, Debug, Clone)]
+pub struct ReportArgs {
     #[command(flatten)]
-    pub out: OutputArgs,
+    pub data: DataArgs,
+    #[command(flatten)]
+    pub study: StudyArgs,
+    /// A stack file (TOML): adds the assembly forecast, the contributors and the plan.
+    #[arg(long, value_name = "FILE.toml")]
+    pub stack: Option<PathBuf>,
+    /// The HTML file to write.
+    #[arg(long, short = 'o', value_name = "FILE.html")]
+    pub output: PathBuf,
+    /// Also write every chart as SVG and PNG into this directory (for slides).
+    #[arg(long, value_name = "DIR")]
+    pub charts: Option<PathBuf>,
+    /// Title of the report (default: from the stack's requirement or the data files).
+    #[arg(long)]
+    pub title: Option<String>,
+    /// Draws of the stack simulation shown on the assembly chart (0: none).
+    #[arg(long, value_name = "N", default_value_t = 1_000_000)]
+    pub samples: u64,
+    /// Seed of the simulation and of the forecast's bootstrap.
+    #[arg(long, value_name = "S")]
+    pub seed: Option<u64>,
+    /// Target assembly reject rate for the plan (ppm).
+    #[arg(long, default_value_t = 100.0, value_name = "PPM")]
+    pub target_ppm: f64,
+    /// What is printed about the written files.
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    pub format: Format,
 }
 
 #[derive(Args, Debug, Clone)]

@@ -1,7 +1,7 @@
 //! `capstack capability`: per-feature capability with bounds, reject rates and normality.
 
 use super::Outcome;
-use crate::cli::{CapabilityArgs, WithinArg};
+use crate::cli::{CapabilityArgs, StudyArgs, WithinArg};
 use crate::error::InputError;
 use crate::output::capability::CapabilityReport;
 use crate::output::{render, Sink};
@@ -11,7 +11,7 @@ use crate::stats::within::WithinMethod;
 use crate::study::{study, ModelRequest, StudySettings, Subgrouping};
 
 pub fn run(args: &CapabilityArgs) -> anyhow::Result<Outcome> {
-    let settings = settings(args)?;
+    let settings = settings(&args.study)?;
     let mut sink = Sink::open(args.out.output.as_deref())?;
     let (data, specs) = super::load(&args.data)?;
     let features = study(&data, &specs, &settings)?;
@@ -31,7 +31,7 @@ pub fn run(args: &CapabilityArgs) -> anyhow::Result<Outcome> {
 }
 
 /// Validates the flags once, before any file is read.
-fn settings(args: &CapabilityArgs) -> Result<StudySettings, InputError> {
+pub fn settings(args: &StudyArgs) -> Result<StudySettings, InputError> {
     if !(args.confidence > 0.5 && args.confidence < 1.0) {
         return Err(InputError::new(format!(
             "--confidence {} must lie between 0.5 and 1 (0.95 is usual)",

@@ -7,6 +7,7 @@ use crate::intake::{self, ReadOptions};
 use crate::measure::{build_model, load_stack_data};
 use crate::output::capability::CapabilityReport;
 use crate::output::plan::PlanReport;
+use crate::output::report::{Report, ReportMeta};
 use crate::output::Render;
 use crate::stack::analytic::safety_factor_table;
 use crate::stack::file::read_stack;
@@ -101,6 +102,39 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
     };
     write(&args.out, "plan.txt", &plan.table(false), &mut written)?;
     write(&args.out, "plan.json", &pretty(&plan.json()), &mut written)?;
+
+    let stack_path = data_dir.join("end_play.toml").display().to_string();
+    let html = Report {
+        meta: ReportMeta {
+            title: "Gearbox end play: measured capability and stack forecast".into(),
+            date: super::report::today_utc(),
+            data_files: files,
+            spec_files: sheets,
+            stack_file: Some(stack_path),
+            confidence: 0.95,
+            min_cpk: crate::study::DEFAULT_MIN_CPK,
+            alpha: DEFAULT_ALPHA,
+            rules: crate::stats::control::DEFAULT_RULES.to_vec(),
+            within: super::report::default_within(),
+        },
+        capability: &capability,
+        stack: Some(&report),
+        plan: Some(&plan),
+    };
+    let html_path = args.out.join("report.html");
+    let charts_dir = super::report::create_dir(&args.out.join("charts"))?;
+    let done = super::report::write_report(
+        &html,
+        super::report::create(&html_path)?,
+        &html_path,
+        Some(&charts_dir),
+    )?;
+    written.push(done.report);
+    written.push(format!(
+        "{} ({} charts as SVG and PNG)",
+        charts_dir.display(),
+        done.charts.len() / 2
+    ));
 
     print!(
         "{}",

@@ -3,6 +3,7 @@
 pub mod capability;
 pub mod demo;
 pub mod plan;
+pub mod report;
 pub mod stack;
 
 use crate::cli::{Command, DataArgs, LayoutArg};
@@ -31,6 +32,7 @@ pub fn run(command: Command) -> anyhow::Result<Outcome> {
         Command::Capability(a) => capability::run(&a),
         Command::Stack(a) => stack::run(&a),
         Command::Plan(a) => plan::run(&a),
+        Command::Report(a) => report::run(&a),
         Command::Demo(a) => demo::run(&a),
     }
 }

@@ -1,7 +1,11 @@
 //! Rendering: the same result structs become terminal tables, JSON and CSV.
 
 pub mod capability;
+pub mod chart;
+pub mod figures;
+pub mod html;
 pub mod plan;
+pub mod report;
 pub mod stack;
 pub mod table;
 

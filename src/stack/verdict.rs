@@ -74,6 +74,8 @@ pub struct Verdict {
     /// Forecast ppm / assumed ppm.
     pub ppm_ratio: Option<f64>,
     pub summary: String,
+    /// The summary's first part: the forecast against the assumption and the main cause.
+    pub headline: String,
     pub causes: Vec<Cause>,
 }
 
@@ -300,6 +302,7 @@ pub fn verdict(
             top.kind
         ));
     }
+    let headline = summary.clone();
     let failing: Vec<&ContributorVerdict> = contributors
         .iter()
         .filter(|c| !c.supports_assumption)
@@ -317,6 +320,7 @@ pub fn verdict(
         supports_assumption: supports,
         ppm_ratio: ratio,
         summary,
+        headline,
         causes,
     }
 }
