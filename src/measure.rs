@@ -111,7 +111,7 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
                     (
                         Some(ds.files[ds.row_file[r] as usize].clone()),
                         Some(ds.value_line(fi, r)),
-                        ds.part_ids.get(r).cloned(),
+                        ds.part_ids.get(r).map(str::to_string),
                     )
                 };
                 let stability = chart_for(&values, None, WithinMethod::MovingRange, chosen)

@@ -289,7 +289,7 @@ pub fn study(
                 (
                     Some(data.files[data.row_file[r] as usize].clone()),
                     Some(data.value_line(f, r)),
-                    data.part_ids.get(r).cloned(),
+                    data.part_ids.get(r).map(str::to_string),
                 )
             };
             let stability =

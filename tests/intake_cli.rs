@@ -480,3 +480,20 @@ fn subgroups_and_the_gate_work_through_the_binary() {
         .unwrap();
     assert_eq!(out.status.code(), Some(0));
 }
+
+#[test]
+fn lines_are_physical_in_crlf_files_with_empty_lines_and_quotes() {
+    // Physical line numbers (CONTRACT.md, Definitions → Intake), header = line 1; an empty line
+    // is skipped but still counted. The same bad cell in every kind of file.
+    let plain = "part,x\r\nA,1\r\n\r\nB,2\r\nC,oops\r\nD,4\r\nE,5\r\nF,6\r\n";
+    let quoted = "part,x\r\n\"A\",1\r\n\r\n\"B\",2\r\n\"C\",oops\r\nD,4\r\nE,5\r\nF,6\r\n";
+    let lf = "part,x\nA,1\n\nB,2\nC,oops\nD,4\nE,5\nF,6\n";
+    let dir = dir_with(&[("crlf.csv", plain), ("quoted.csv", quoted), ("lf.csv", lf)]);
+    for file in ["crlf.csv", "quoted.csv", "lf.csv"] {
+        let v = json_of(dir.path(), &[file]);
+        let unused = &v["audit"]["unused"][0];
+        assert_eq!(unused["line"], 5, "{file}: {unused}");
+        assert_eq!(unused["text"], "oops", "{file}");
+        assert_eq!(v["audit"]["rows_read"], 6, "{file}");
+    }
+}

@@ -2,8 +2,8 @@
 //! with its file, line, column, text and reason.
 
 use super::{Dataset, Layout, SpecSet};
+use rustc_hash::FxHashMap;
 use serde::Serialize;
-use std::collections::HashMap;
 
 /// A value that was read but not used.
 #[derive(Debug, Clone, Serialize, PartialEq)]
@@ -245,7 +245,10 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
         if (seen.len() as u64) < MIN_DISTINCT_VALUES && !seen.contains(&v) {
             seen.push(v);
         }
-        decimals = decimals.max(decimal_places(v));
+        // Most values have no more decimals than the finest seen so far: one test settles it.
+        if !has_at_most(v, decimals) {
+            decimals = decimals.max(decimal_places(v));
+        }
     }
     let resolution = (!seen.is_empty()).then(|| 10f64.powi(-(decimals as i32)));
     FeatureCheck {
@@ -255,30 +258,31 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
     }
 }
 
+/// Whether `v` has at most `k` decimal places (the test of [`decimal_places`] at k).
+fn has_at_most(v: f64, k: u32) -> bool {
+    let scaled = v.abs() * POW10[k.min(9) as usize];
+    (scaled - scaled.round()).abs() <= 1e-9 * scaled.max(1.0)
+}
+
+const POW10: [f64; 10] = [1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9];
+
 /// Decimal places a value was written with (up to 9): the resolution of the gauge as seen.
 fn decimal_places(v: f64) -> u32 {
-    let mut scaled = v.abs();
-    for k in 0..10 {
-        let tol = 1e-9 * scaled.max(1.0);
-        if (scaled - scaled.round()).abs() <= tol {
-            return k;
-        }
-        scaled *= 10.0;
-    }
-    9
+    (0..9).find(|&k| has_at_most(v, k)).unwrap_or(9)
 }
 
 fn flag_duplicate_parts(data: &mut Dataset) {
     if data.part_ids.is_empty() {
         return;
     }
-    let mut first_seen: HashMap<&str, usize> = HashMap::with_capacity(data.part_ids.len());
+    let mut first_seen: FxHashMap<&str, usize> =
+        FxHashMap::with_capacity_and_hasher(data.part_ids.len(), Default::default());
     let mut dups = Vec::new();
     for (r, id) in data.part_ids.iter().enumerate() {
         if id.is_empty() {
             continue;
         }
-        if let Some(&first) = first_seen.get(id.as_str()) {
+        if let Some(&first) = first_seen.get(id) {
             dups.push((r, first));
         } else {
             first_seen.insert(id, r);
@@ -294,7 +298,9 @@ fn flag_duplicate_parts(data: &mut Dataset) {
             line: Some(data.row_line[r]),
             message: format!(
                 "part '{}' was already seen at {}:{}; both rows are used",
-                data.part_ids[r], first_file, data.row_line[first]
+                data.part_ids.get(r).unwrap_or_default(),
+                first_file,
+                data.row_line[first]
             ),
         });
     }

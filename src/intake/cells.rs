@@ -72,7 +72,7 @@ fn fast_parse(s: &[u8]) -> Option<f64> {
     Some(if neg { -v } else { v })
 }
 
-const POW10: [f64; 16] = [
+pub const POW10: [f64; 16] = [
     1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15,
 ];
 

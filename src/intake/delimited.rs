@@ -6,7 +6,8 @@
 
 use super::audit::{FileAudit, RejectedRow, Unused};
 use super::cells::{self, parse_cell};
-use super::{RawColumn, RawTable};
+use super::text::{Dictionary, Strings};
+use super::{BadCell, RawColumn, RawTable, KEPT_TEXT};
 use crate::error::{InputError, Result};
 use rayon::prelude::*;
 use std::fs::File;
@@ -55,7 +56,8 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
                 name: n.clone(),
                 numbers: Vec::new(),
                 bad: Vec::new(),
-                text: k.then(Vec::new),
+                bad_texts: Dictionary::default(),
+                text: k.then(Strings::default),
             })
             .collect(),
         lines: Vec::new(),
@@ -76,6 +78,8 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
         names: &names,
         keep: &keep,
     };
+    let file_len = file.metadata().map_or(0, |m| m.len());
+    let mut reserved = false;
     loop {
         let cut = if eof {
             Some(buf.len())
@@ -88,8 +92,19 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
             eof = fill(&mut file, &mut buf, target, path)?;
             continue;
         };
-        parse_block(&buf[..cut], lines_before, &ctx, &mut table)?;
-        lines_before += count_newlines(&buf[..cut]) as u64;
+        lines_before += parse_block(&buf[..cut], lines_before, &ctx, &mut table)?;
+        if !reserved {
+            // Room for the whole file's rows, estimated from this first block, so the
+            // columns are not copied as they grow.
+            reserved = true;
+            let per_byte = table.lines.len() as f64 / cut.max(1) as f64;
+            let rows = (per_byte * file_len as f64 * 1.02) as usize;
+            let more = rows.saturating_sub(table.lines.len());
+            table.lines.reserve(more);
+            for col in &mut table.columns {
+                col.numbers.reserve(more);
+            }
+        }
         buf.drain(..cut);
         if eof {
             break;
@@ -113,20 +128,16 @@ struct ParseContext<'a> {
     keep: &'a [bool],
 }
 
-/// Reads until `buf` holds `target` bytes or the file ends; true at end of file.
+/// Reads until `buf` holds `target` bytes or the file ends; true at end of file. The spare
+/// room is filled as read, without zeroing it first.
 fn fill(file: &mut File, buf: &mut Vec<u8>, target: usize, path: &str) -> Result<bool> {
-    while buf.len() < target {
-        let start = buf.len();
-        buf.resize(target, 0);
-        let n = file
-            .read(&mut buf[start..])
-            .map_err(|e| InputError::new(format!("{path}: read error: {e}")))?;
-        buf.truncate(start + n);
-        if n == 0 {
-            return Ok(true);
-        }
-    }
-    Ok(false)
+    let want = target.saturating_sub(buf.len());
+    buf.reserve(want);
+    let got = file
+        .take(want as u64)
+        .read_to_end(buf)
+        .map_err(|e| InputError::new(format!("{path}: read error: {e}")))?;
+    Ok(got < want)
 }
 
 fn count_newlines(s: &[u8]) -> usize {
@@ -297,58 +308,218 @@ fn check_utf8(s: &[u8], path: &str, lines_before: u64) -> Result<()> {
     Ok(())
 }
 
-/// What one piece of a block yields, rows numbered from 0 within the piece.
-#[derive(Default)]
-struct Piece {
-    lines: Vec<u64>,
-    numbers: Vec<Vec<f64>>,
-    bad: Vec<Vec<(usize, String, &'static str)>>,
-    text: Vec<Vec<String>>,
+/// What one piece of a block yields. Numbers and lines are written straight into the piece's
+/// share of the table's columns (no copy afterwards); rows are numbered from 0 in the piece.
+struct Piece<'a> {
+    /// Rows written so far.
+    rows: usize,
+    lines: &'a mut [u64],
+    numbers: Vec<&'a mut [f64]>,
+    columns: Vec<PieceText>,
     blank_rows: Vec<u64>,
     extra: Vec<Unused>,
     decimal_comma_used: bool,
 }
 
+/// The cells of one column of a piece that were not numbers, and kept texts.
+#[derive(Default, Clone)]
+struct PieceText {
+    bad: Vec<BadCell>,
+    /// Texts of the bad cells, by the codes in `bad`.
+    bad_texts: Dictionary,
+    text: Strings,
+}
+
+impl<'a> Piece<'a> {
+    /// A piece writing its rows into `lines` and `numbers` (one slice per column, each as long
+    /// as the most records the piece can hold).
+    fn new(lines: &'a mut [u64], numbers: Vec<&'a mut [f64]>) -> Self {
+        let ncol = numbers.len();
+        Self {
+            rows: 0,
+            lines,
+            numbers,
+            columns: vec![PieceText::default(); ncol],
+            blank_rows: Vec::new(),
+            extra: Vec::new(),
+            decimal_comma_used: false,
+        }
+    }
+
+    /// Starts a data row at physical line `line`; its index in the piece.
+    fn start_row(&mut self, line: u64) -> usize {
+        let row = self.rows;
+        self.lines[row] = line;
+        self.rows += 1;
+        row
+    }
+
+    /// One record's cells, read from physical line `line`.
+    fn record(&mut self, cells: &[&[u8]], line: u64, ctx: &ParseContext) {
+        if cells.iter().all(|c| cells::trim(c).is_empty()) {
+            self.blank_rows.push(line);
+            return;
+        }
+        let row = self.start_row(line);
+        for c in 0..ctx.names.len() {
+            self.cell(c, row, cells.get(c).copied().unwrap_or(b""), ctx);
+        }
+        for (c, raw) in cells.iter().enumerate().skip(ctx.names.len()) {
+            self.extra_cell(c, raw, line, ctx);
+        }
+    }
+
+    /// One cell of column `c` in piece row `row`, as written.
+    fn cell(&mut self, c: usize, row: usize, raw: &[u8], ctx: &ParseContext) {
+        let cell = cells::trim(raw);
+        let col = &mut self.columns[c];
+        if ctx.keep[c] {
+            col.text.push(std::str::from_utf8(cell).unwrap_or_default());
+        }
+        match parse_cell(cell, ctx.decimal_comma) {
+            Ok(v) => {
+                if ctx.decimal_comma && cell.contains(&b',') {
+                    self.decimal_comma_used = true;
+                }
+                self.numbers[c][row] = v;
+            }
+            Err(reason) => {
+                self.numbers[c][row] = f64::NAN;
+                // A kept column has the text already; others share one copy per text.
+                let text = if ctx.keep[c] {
+                    KEPT_TEXT
+                } else {
+                    col.bad_texts.code_bytes(cell)
+                };
+                col.bad.push(BadCell { row, text, reason });
+            }
+        }
+    }
+
+    /// A non-blank cell beyond the header's columns: listed, not used.
+    fn extra_cell(&mut self, c: usize, raw: &[u8], line: u64, ctx: &ParseContext) {
+        let cell = cells::trim(raw);
+        if !cell.is_empty() {
+            self.extra.push(Unused {
+                file: ctx.path.to_string(),
+                line,
+                column: format!("column {} (beyond the header)", c + 1),
+                text: String::from_utf8_lossy(cell).into_owned(),
+                reason: "extra cell".into(),
+            });
+        }
+    }
+}
+
+/// What is left of a piece once its numbers are in the table.
+struct PieceRest {
+    rows: usize,
+    columns: Vec<PieceText>,
+    blank_rows: Vec<u64>,
+    extra: Vec<Unused>,
+    decimal_comma_used: bool,
+}
+
+/// The most records a piece can hold: one per newline, per carriage return not followed by
+/// a newline (the csv reader ends a record there too), and one for an unterminated last line.
+fn record_capacity(s: &[u8]) -> usize {
+    let lone_cr = memchr::memchr_iter(b'\r', s)
+        .filter(|&i| s.get(i + 1) != Some(&b'\n'))
+        .count();
+    count_newlines(s) + lone_cr + usize::from(!s.is_empty() && !s.ends_with(b"\n"))
+}
+
+/// Parses a block of whole records on all cores and appends it to the table; returns the
+/// block's newlines. Each piece writes into its own stretch of every column; stretches left
+/// short (blank rows, multi-line records) are closed up afterwards.
 fn parse_block(
     block: &[u8],
     lines_before: u64,
     ctx: &ParseContext,
     table: &mut RawTable,
-) -> Result<()> {
+) -> Result<u64> {
     let pieces = split_records(block, rayon::current_num_threads() * 2);
+    let counts: Vec<(u64, usize)> = pieces
+        .par_iter()
+        .map(|p| (count_newlines(p) as u64, record_capacity(p)))
+        .collect();
     let mut offsets = Vec::with_capacity(pieces.len());
     let mut acc = lines_before;
-    for p in &pieces {
+    for (n, _) in &counts {
         offsets.push(acc);
-        acc += count_newlines(p) as u64;
+        acc += n;
     }
-    let results: Vec<Result<Piece>> = pieces
+    let base = table.lines.len();
+    let capacity: usize = counts.iter().map(|c| c.1).sum();
+    table.lines.resize(base + capacity, 0);
+    for col in &mut table.columns {
+        col.numbers.resize(base + capacity, f64::NAN);
+    }
+    // Every piece's stretch of the lines and of each column.
+    let mut line_parts = Vec::with_capacity(pieces.len());
+    let mut rest = &mut table.lines[base..];
+    for (_, cap) in &counts {
+        let (part, tail) = rest.split_at_mut(*cap);
+        line_parts.push(part);
+        rest = tail;
+    }
+    let mut number_parts: Vec<Vec<&mut [f64]>> = (0..pieces.len()).map(|_| Vec::new()).collect();
+    for col in &mut table.columns {
+        let mut rest = &mut col.numbers[base..];
+        for (i, (_, cap)) in counts.iter().enumerate() {
+            let (part, tail) = rest.split_at_mut(*cap);
+            number_parts[i].push(part);
+            rest = tail;
+        }
+    }
+    let results: Vec<Result<PieceRest>> = pieces
         .par_iter()
-        .zip(offsets.par_iter())
-        .map(|(p, &before)| parse_piece(p, before, ctx))
+        .zip(offsets)
+        .zip(line_parts.into_par_iter().zip(number_parts))
+        .map(|((p, before), (lines, numbers))| {
+            parse_piece(p, before, Piece::new(lines, numbers), ctx)
+        })
         .collect();
+    let mut rests = Vec::with_capacity(results.len());
     for r in results {
-        let mut piece = r?;
-        let base = table.lines.len();
-        table.lines.extend_from_slice(&piece.lines);
-        // Moved, not copied: a text column holds a string per row.
-        let bads = std::mem::take(&mut piece.bad);
-        let texts = std::mem::take(&mut piece.text);
-        for (((col, numbers), bad), text) in table
-            .columns
-            .iter_mut()
-            .zip(&piece.numbers)
-            .zip(bads)
-            .zip(texts)
-        {
-            col.numbers.extend_from_slice(numbers);
-            col.bad
-                .extend(bad.into_iter().map(|(r, t, why)| (r + base, t, why)));
-            if let Some(t) = &mut col.text {
-                t.extend(text);
+        rests.push(r?);
+    }
+    // Close up the stretches the pieces did not fill, keeping each piece's first row.
+    let mut firsts = Vec::with_capacity(rests.len());
+    let (mut from, mut to) = (base, base);
+    for (rest, (_, cap)) in rests.iter().zip(&counts) {
+        if from != to {
+            table.lines.copy_within(from..from + rest.rows, to);
+            for col in &mut table.columns {
+                col.numbers.copy_within(from..from + rest.rows, to);
             }
         }
-        for line in piece.blank_rows {
+        firsts.push(to);
+        to += rest.rows;
+        from += cap;
+    }
+    table.lines.truncate(to);
+    for col in &mut table.columns {
+        col.numbers.truncate(to);
+    }
+    // Each column gathers its bad cells and texts from every piece, columns in parallel.
+    let mut per_column: Vec<Vec<PieceText>> = vec![Vec::new(); ctx.names.len()];
+    for rest in &mut rests {
+        for (c, col) in std::mem::take(&mut rest.columns).into_iter().enumerate() {
+            per_column[c].push(col);
+        }
+    }
+    table
+        .columns
+        .par_iter_mut()
+        .zip(per_column)
+        .for_each(|(col, parts)| {
+            for (part, &first) in parts.into_iter().zip(&firsts) {
+                append_part(col, part, first);
+            }
+        });
+    for rest in rests {
+        for line in rest.blank_rows {
             table.rejected.push(RejectedRow {
                 file: ctx.path.to_string(),
                 line,
@@ -356,23 +527,187 @@ fn parse_block(
             });
             table.file_audit.blank_rows += 1;
         }
-        table.extra_cells.extend(piece.extra);
-        table.file_audit.decimal_comma_used |= piece.decimal_comma_used;
+        table.extra_cells.extend(rest.extra);
+        table.file_audit.decimal_comma_used |= rest.decimal_comma_used;
     }
-    Ok(())
+    Ok(acc - lines_before)
 }
 
-fn parse_piece(s: &[u8], lines_before: u64, ctx: &ParseContext) -> Result<Piece> {
+/// Appends a piece's bad cells and texts, its first row being the table's row `first`.
+fn append_part(col: &mut RawColumn, part: PieceText, first: usize) {
+    // The piece's text codes into the column's.
+    let codes: Vec<u32> = part
+        .bad_texts
+        .levels
+        .iter()
+        .map(|t| col.bad_texts.code(t))
+        .collect();
+    col.bad.extend(part.bad.into_iter().map(|b| BadCell {
+        row: b.row + first,
+        text: if b.text == KEPT_TEXT {
+            KEPT_TEXT
+        } else {
+            codes[b.text as usize]
+        },
+        reason: b.reason,
+    }));
+    if let Some(t) = &mut col.text {
+        t.append(part.text);
+    }
+}
+
+/// Parses one piece (whole records): by plain splitting when it has no quotes and no lone
+/// carriage return, else with the csv reader. Both give the physical line of each record and
+/// skip empty lines, as the csv reader does.
+fn parse_piece(
+    s: &[u8],
+    lines_before: u64,
+    mut piece: Piece,
+    ctx: &ParseContext,
+) -> Result<PieceRest> {
     check_utf8(s, ctx.path, lines_before)?;
+    if is_plain(s) {
+        parse_plain(s, lines_before, ctx, &mut piece);
+    } else {
+        parse_quoted(s, lines_before, ctx, &mut piece)?;
+    }
+    Ok(PieceRest {
+        rows: piece.rows,
+        columns: piece.columns,
+        blank_rows: piece.blank_rows,
+        extra: piece.extra,
+        decimal_comma_used: piece.decimal_comma_used,
+    })
+}
+
+/// No quote characters, and every carriage return ends a line (CRLF).
+fn is_plain(s: &[u8]) -> bool {
+    memchr::memchr(b'"', s).is_none()
+        && memchr::memchr_iter(b'\r', s).all(|i| s.get(i + 1) == Some(&b'\n'))
+}
+
+/// Records are lines, cells are split at the delimiter: the common export, parsed without
+/// the csv state machine. A plain decimal is read while the cell is scanned; any other cell
+/// (text, blanks, spaces, decimal commas, exponents) goes through [`Piece::cell`].
+fn parse_plain(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) {
     let ncol = ctx.names.len();
-    let mut piece = Piece {
-        numbers: vec![Vec::new(); ncol],
-        bad: vec![Vec::new(); ncol],
-        text: vec![Vec::new(); ncol],
-        ..Default::default()
+    let delimiter = ctx.delimiter;
+    let mut line = lines_before;
+    let mut start = 0;
+    let ends = memchr::memchr_iter(b'\n', s).chain((!s.ends_with(b"\n")).then_some(s.len()));
+    for end in ends {
+        line += 1;
+        let mut rec = &s[start..end];
+        start = end + 1;
+        if let Some(r) = rec.strip_suffix(b"\r") {
+            rec = r;
+        }
+        if rec.is_empty() {
+            continue;
+        }
+        // A blank row (only delimiters and spaces) starts with one of them; check only then.
+        if (rec[0] == delimiter || rec[0].is_ascii_whitespace())
+            && rec
+                .iter()
+                .all(|&b| b == delimiter || b.is_ascii_whitespace())
+        {
+            piece.blank_rows.push(line);
+            continue;
+        }
+        let row = piece.start_row(line);
+        let mut pos = 0;
+        let mut c = 0;
+        loop {
+            let from = pos;
+            let plain = if c < ncol && !ctx.keep[c] {
+                scan_decimal(rec, &mut pos, delimiter)
+            } else {
+                None
+            };
+            if plain.is_none() {
+                pos = memchr::memchr(delimiter, &rec[pos..]).map_or(rec.len(), |i| pos + i);
+            }
+            match (c < ncol, plain) {
+                (true, Some(v)) => piece.numbers[c][row] = v,
+                (true, None) => piece.cell(c, row, &rec[from..pos], ctx),
+                (false, _) => piece.extra_cell(c, &rec[from..pos], line, ctx),
+            }
+            c += 1;
+            if pos >= rec.len() {
+                break;
+            }
+            pos += 1; // past the delimiter
+        }
+        for missing in c..ncol {
+            piece.cell(missing, row, b"", ctx);
+        }
+    }
+}
+
+/// Reads a plain decimal (`-12.345`, `3`, at most 15 digits) starting at `*pos` and ending at
+/// the delimiter or the end of `rec`, and moves `*pos` there; `None` (and `*pos` unmoved) for
+/// anything else. Same value as [`parse_cell`]: both divide an exact mantissa by an exact
+/// power of ten.
+#[inline]
+fn scan_decimal(rec: &[u8], pos: &mut usize, delimiter: u8) -> Option<f64> {
+    let s = &rec[*pos..];
+    let (neg, mut i) = match s.first() {
+        Some(b'-') => (true, 1),
+        Some(b'+') => (false, 1),
+        _ => (false, 0),
     };
+    let mut mantissa = 0u64;
+    let digits_from = i;
+    while i < s.len() {
+        let d = s[i].wrapping_sub(b'0');
+        if d > 9 {
+            break;
+        }
+        mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
+        i += 1;
+    }
+    let int_digits = i - digits_from;
+    let mut frac = 0;
+    if i < s.len() && s[i] == b'.' {
+        i += 1;
+        let frac_from = i;
+        while i < s.len() {
+            let d = s[i].wrapping_sub(b'0');
+            if d > 9 {
+                break;
+            }
+            mantissa = mantissa.wrapping_mul(10).wrapping_add(u64::from(d));
+            i += 1;
+        }
+        frac = i - frac_from;
+    }
+    let digits = int_digits + frac;
+    if (i < s.len() && s[i] != delimiter) || digits == 0 || digits > 15 {
+        return None;
+    }
+    *pos += i;
+    let v = mantissa as f64 / cells::POW10[frac];
+    Some(if neg { -v } else { v })
+}
+
+/// Quoted fields (which may hold delimiters and newlines): the csv reader, with each record's
+/// physical line found from its byte offset.
+fn parse_quoted(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) -> Result<()> {
     let mut rdr = reader(s, ctx.delimiter);
     let mut rec = csv::ByteRecord::new();
+    let (mut counted_to, mut newlines) = (0usize, 0u64);
+    let mut line_at = |mut byte: usize| {
+        // The reader reports a record's start before the empty lines it skipped.
+        while matches!(s.get(byte), Some(b'\r' | b'\n')) {
+            byte += 1;
+        }
+        let byte = byte.min(s.len());
+        if byte > counted_to {
+            newlines += count_newlines(&s[counted_to..byte]) as u64;
+            counted_to = byte;
+        }
+        lines_before + newlines + 1
+    };
     loop {
         let more = rdr.read_byte_record(&mut rec).map_err(|e| {
             let line = e.position().map(|p| lines_before + p.line());
@@ -381,55 +716,147 @@ fn parse_piece(s: &[u8], lines_before: u64, ctx: &ParseContext) -> Result<Piece>
         if !more {
             break;
         }
-        let line = lines_before + rec.position().map_or(1, |p| p.line());
-        if rec.iter().all(|c| cells::trim(c).is_empty()) {
-            piece.blank_rows.push(line);
-            continue;
-        }
-        let row = piece.lines.len();
-        piece.lines.push(line);
-        for c in 0..ncol {
-            let cell = rec.get(c).unwrap_or(b"");
-            if ctx.keep[c] {
-                piece.text[c].push(String::from_utf8_lossy(cells::trim(cell)).into_owned());
-            }
-            match parse_cell(cell, ctx.decimal_comma) {
-                Ok(v) => {
-                    if ctx.decimal_comma && cell.contains(&b',') {
-                        piece.decimal_comma_used = true;
-                    }
-                    piece.numbers[c].push(v);
-                }
-                Err(reason) => {
-                    piece.numbers[c].push(f64::NAN);
-                    let text = if rec.get(c).is_none() {
-                        String::new()
-                    } else {
-                        String::from_utf8_lossy(cells::trim(cell)).into_owned()
-                    };
-                    piece.bad[c].push((row, text, reason));
-                }
-            }
-        }
-        for c in ncol..rec.len() {
-            let cell = cells::trim(&rec[c]);
-            if !cell.is_empty() {
-                piece.extra.push(Unused {
-                    file: ctx.path.to_string(),
-                    line,
-                    column: format!("column {} (beyond the header)", c + 1),
-                    text: String::from_utf8_lossy(cell).into_owned(),
-                    reason: "extra cell".into(),
-                });
-            }
-        }
+        let line = line_at(rec.position().map_or(0, |p| p.byte() as usize));
+        let cells: Vec<&[u8]> = rec.iter().collect();
+        piece.record(&cells, line, ctx);
     }
-    Ok(piece)
+    Ok(())
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use proptest::prelude::*;
+
+    fn names(n: usize) -> Vec<String> {
+        (0..n).map(|i| format!("c{i}")).collect()
+    }
+
+    /// Everything a piece holds, comparable.
+    fn summary(p: &Piece) -> String {
+        let numbers: Vec<Vec<u64>> = p
+            .numbers
+            .iter()
+            .map(|c| c[..p.rows].iter().map(|v| v.to_bits()).collect())
+            .collect();
+        let bad: Vec<Vec<(usize, &str, &str)>> = p
+            .columns
+            .iter()
+            .map(|c| {
+                c.bad
+                    .iter()
+                    .map(|x| {
+                        let t = if x.text == KEPT_TEXT {
+                            "<kept>"
+                        } else {
+                            c.bad_texts.get(x.text)
+                        };
+                        (x.row, t, x.reason)
+                    })
+                    .collect()
+            })
+            .collect();
+        let text: Vec<Vec<&str>> = p.columns.iter().map(|c| c.text.iter().collect()).collect();
+        let extra: Vec<(u64, &str, &str)> = p
+            .extra
+            .iter()
+            .map(|u| (u.line, u.column.as_str(), u.text.as_str()))
+            .collect();
+        format!(
+            "{:?}\n{numbers:?}\n{bad:?}\n{text:?}\n{:?}\n{extra:?}\n{}",
+            &p.lines[..p.rows],
+            p.blank_rows,
+            p.decimal_comma_used
+        )
+    }
+
+    fn cell() -> impl Strategy<Value = String> {
+        prop_oneof![
+            (-1e6f64..1e6).prop_map(|v| format!("{v:.4}")),
+            (0u32..100_000).prop_map(|v| v.to_string()),
+            Just(String::new()),
+            Just("  ".to_string()),
+            Just(" 12.5 ".to_string()),
+            Just("n/a".to_string()),
+            Just("1,5".to_string()),
+            Just("1.234,5".to_string()),
+            Just("-".to_string()),
+            Just("+.5".to_string()),
+            Just("5.".to_string()),
+            Just("1e-3".to_string()),
+            Just("NaN".to_string()),
+            Just("1234567890123456".to_string()),
+            Just("L07".to_string()),
+        ]
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(200))]
+        /// The plain splitter reads quote-free text exactly as the csv reader does.
+        #[test]
+        fn plain_and_csv_readers_agree(
+            rows in prop::collection::vec(prop::collection::vec(cell(), 0..6), 1..30),
+            ncol in 1usize..5,
+            keep_first in any::<bool>(),
+            semicolon in any::<bool>(),
+            crlf in any::<bool>(),
+            final_newline in any::<bool>(),
+        ) {
+            let d = if semicolon { ";" } else { "," };
+            let eol = if crlf { "\r\n" } else { "\n" };
+            let body: Vec<String> = rows.iter().map(|r| r.join(d)).collect();
+            let mut text = body.join(eol);
+            if final_newline {
+                text.push_str(eol);
+            }
+            let names = names(ncol);
+            let mut keep = vec![false; ncol];
+            keep[0] = keep_first;
+            let ctx = ParseContext {
+                path: "t.csv",
+                delimiter: d.as_bytes()[0],
+                decimal_comma: semicolon,
+                names: &names,
+                keep: &keep,
+            };
+            let s = text.as_bytes();
+            prop_assume!(is_plain(s));
+            let cap = record_capacity(s);
+            let (mut lines_a, mut lines_b) = (vec![0; cap], vec![0; cap]);
+            let mut numbers_a = vec![vec![f64::NAN; cap]; ncol];
+            let mut numbers_b = numbers_a.clone();
+            let mut plain = Piece::new(&mut lines_a, numbers_a.iter_mut().map(|v| v.as_mut_slice()).collect());
+            parse_plain(s, 3, &ctx, &mut plain);
+            let mut quoted = Piece::new(&mut lines_b, numbers_b.iter_mut().map(|v| v.as_mut_slice()).collect());
+            parse_quoted(s, 3, &ctx, &mut quoted).unwrap();
+            prop_assert_eq!(summary(&plain), summary(&quoted));
+        }
+    }
+
+    #[test]
+    fn lines_are_physical_with_crlf_and_empty_lines() {
+        let names = names(2);
+        let keep = [false, false];
+        let ctx = ParseContext {
+            path: "t.csv",
+            delimiter: b',',
+            decimal_comma: false,
+            names: &names,
+            keep: &keep,
+        };
+        for text in ["1,2\r\n\r\n3,x\r\n", "\"1\",2\r\n\r\n3,x\r\n"] {
+            let s = text.as_bytes();
+            let cap = record_capacity(s);
+            let mut lines = vec![0; cap];
+            let mut numbers = vec![vec![f64::NAN; cap]; 2];
+            let piece = Piece::new(
+                &mut lines,
+                numbers.iter_mut().map(|v| v.as_mut_slice()).collect(),
+            );
+            let rest = parse_piece(s, 1, piece, &ctx).unwrap();
+            assert_eq!(&lines[..rest.rows], [2, 4], "{text:?}");
+        }
+    }
 
     #[test]
     fn detects_the_delimiter_outside_quotes() {

@@ -41,7 +41,7 @@ pub(super) fn add_long(
     let bad_value: HashMap<usize, (&str, &'static str)> = columns[val_c]
         .bad
         .iter()
-        .map(|(r, t, why)| (*r, (t.as_str(), *why)))
+        .map(|b| (b.row, (columns[val_c].bad_text(b), b.reason)))
         .collect();
     let spec_bad: Vec<HashMap<usize, &str>> = spec_c
         .iter()
@@ -50,8 +50,8 @@ pub(super) fn add_long(
                 columns[c]
                     .bad
                     .iter()
-                    .filter(|b| b.2 != super::cells::BLANK)
-                    .map(|b| (b.0, b.1.as_str()))
+                    .filter(|b| b.reason != super::cells::BLANK)
+                    .map(|b| (b.row, columns[c].bad_text(b)))
                     .collect()
             })
         })
@@ -176,10 +176,8 @@ pub(super) fn add_long(
             let row = data.row_line.len();
             data.row_line.push(line);
             data.row_file.push(file_index);
-            if data.part_ids.len() < row {
-                data.part_ids.resize(row, String::new());
-            }
-            data.part_ids.push(part.clone());
+            data.part_ids.pad_to(row);
+            data.part_ids.push(&part);
             data.attributes[src].push(Some(path));
             for (&c, &ai) in attr_cols.iter().zip(&attr_idx) {
                 let t = columns[c].cell_text(r);

@@ -11,9 +11,11 @@ mod delimited;
 mod long;
 mod parquet;
 mod specs;
+mod text;
 
 pub use audit::{Audit, FileAudit, Issue, RejectedRow, Unused};
 pub use specs::{read_spec_sheet, read_spec_sheets, Spec, SpecSet};
+pub use text::{Dictionary, Strings, TextColumn, NO_LEVEL};
 
 use crate::error::{InputError, Result};
 use std::collections::HashMap;
@@ -58,53 +60,6 @@ impl Default for ReadOptions {
     }
 }
 
-/// A text column, dictionary-encoded: one code per row, `u32::MAX` where the cell is absent.
-#[derive(Debug, Clone, Default)]
-pub struct TextColumn {
-    pub name: String,
-    pub levels: Vec<String>,
-    pub codes: Vec<u32>,
-    index: HashMap<String, u32>,
-}
-
-pub const NO_LEVEL: u32 = u32::MAX;
-
-impl TextColumn {
-    pub fn new(name: &str) -> Self {
-        Self {
-            name: name.to_string(),
-            ..Default::default()
-        }
-    }
-
-    pub fn push(&mut self, text: Option<&str>) {
-        let code = match text {
-            None => NO_LEVEL,
-            Some(t) => match self.index.get(t) {
-                Some(&c) => c,
-                None => {
-                    let c = self.levels.len() as u32;
-                    self.levels.push(t.to_string());
-                    self.index.insert(t.to_string(), c);
-                    c
-                }
-            },
-        };
-        self.codes.push(code);
-    }
-
-    pub fn pad_to(&mut self, rows: usize) {
-        self.codes.resize(rows, NO_LEVEL);
-    }
-
-    pub fn get(&self, row: usize) -> Option<&str> {
-        match self.codes.get(row) {
-            Some(&c) if c != NO_LEVEL => Some(&self.levels[c as usize]),
-            _ => None,
-        }
-    }
-}
-
 /// One feature: a value per part row, `NaN` where the part has none.
 #[derive(Debug, Clone)]
 pub struct FeatureColumn {
@@ -120,7 +75,7 @@ pub struct Dataset {
     /// Text attributes (lot, cavity, supplier, date, …), plus `source_file`.
     pub attributes: Vec<TextColumn>,
     /// Part ids per row; empty when no file had an id column (the row number is the id).
-    pub part_ids: Vec<String>,
+    pub part_ids: Strings,
     /// The file index and physical line of each part row (the first line, for long data).
     pub row_file: Vec<u32>,
     pub row_line: Vec<u64>,
@@ -150,7 +105,7 @@ impl Dataset {
     /// The part id of a row: the id column where there is one, else the 1-based row number.
     pub fn part_id(&self, row: usize) -> String {
         match self.part_ids.get(row) {
-            Some(id) if !id.is_empty() => id.clone(),
+            Some(id) if !id.is_empty() => id.to_string(),
             _ => (row + 1).to_string(),
         }
     }
@@ -167,9 +122,10 @@ impl Dataset {
         if let Some(i) = self.features.iter().position(|f| f.name == name) {
             return i;
         }
+        // Empty: the reader fills it to the rows it has, `pad_columns` pads the rest.
         self.features.push(FeatureColumn {
             name: name.to_string(),
-            values: vec![f64::NAN; self.rows()],
+            values: Vec::new(),
         });
         self.features.len() - 1
     }
@@ -178,9 +134,7 @@ impl Dataset {
         if let Some(i) = self.attributes.iter().position(|a| a.name == name) {
             return i;
         }
-        let mut col = TextColumn::new(name);
-        col.pad_to(self.rows());
-        self.attributes.push(col);
+        self.attributes.push(TextColumn::new(name));
         self.attributes.len() - 1
     }
 
@@ -194,7 +148,7 @@ impl Dataset {
             a.pad_to(rows);
         }
         if !self.part_ids.is_empty() {
-            self.part_ids.resize(rows, String::new());
+            self.part_ids.pad_to(rows);
         }
     }
 }
@@ -291,11 +245,26 @@ pub(crate) struct RawColumn {
     pub name: String,
     /// Per row: the number, or NaN (see `bad`).
     pub numbers: Vec<f64>,
-    /// Rows whose cell was not a finite number: (row, text, reason). Blank cells too.
-    pub bad: Vec<(usize, String, &'static str)>,
-    /// The raw text of each cell, kept only for columns that may be text (see `cells`).
-    pub text: Option<Vec<String>>,
+    /// Cells that were not a finite number (blank ones too), in row order.
+    pub bad: Vec<BadCell>,
+    /// The texts of the bad cells, by their code.
+    pub bad_texts: Dictionary,
+    /// The text of each cell as written (trimmed), kept only for columns that may be ids or
+    /// keys (see `read_one`).
+    pub text: Option<Strings>,
 }
+
+/// A cell that was not a finite number.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct BadCell {
+    pub row: usize,
+    /// Code of its text in the column's `bad_texts`, or [`KEPT_TEXT`].
+    pub text: u32,
+    pub reason: &'static str,
+}
+
+/// The text of the bad cell is the column's kept text of that row.
+pub(crate) const KEPT_TEXT: u32 = u32::MAX;
 
 impl RawColumn {
     /// Non-blank cells that are not numbers count against "most cells are numbers".
@@ -303,29 +272,78 @@ impl RawColumn {
         let non_numeric = self
             .bad
             .iter()
-            .filter(|b| b.2 == cells::NON_NUMERIC)
+            .filter(|b| b.reason == cells::NON_NUMERIC)
             .count();
         let numeric = self.numbers.len() - self.bad.len();
         numeric > non_numeric
     }
 
+    /// The text of a bad cell as found.
+    pub fn bad_text(&self, b: &BadCell) -> &str {
+        match (b.text, &self.text) {
+            (KEPT_TEXT, Some(t)) => t.get(b.row).unwrap_or_default(),
+            (KEPT_TEXT, None) => "",
+            (code, _) => self.bad_texts.get(code),
+        }
+    }
+
+    /// The text of a cell, `None` when blank.
     pub fn cell_text(&self, row: usize) -> Option<String> {
         if let Some(t) = &self.text {
-            let s = t[row].trim();
-            return if s.is_empty() {
-                None
-            } else {
-                Some(s.to_string())
-            };
+            return t.get(row).filter(|s| !s.is_empty()).map(str::to_string);
         }
         let v = self.numbers[row];
         if v.is_nan() {
             // `bad` is in row order.
-            let i = self.bad.binary_search_by_key(&row, |b| b.0).ok()?;
-            Some(self.bad[i].1.clone()).filter(|s| !s.trim().is_empty())
+            let i = self.bad.binary_search_by_key(&row, |b| b.row).ok()?;
+            Some(self.bad_text(&self.bad[i]).to_string()).filter(|s| !s.trim().is_empty())
         } else {
             Some(cells::format_number(v))
         }
+    }
+
+    /// The column as codes of `into` (one per row, [`NO_LEVEL`] for blank cells): each distinct
+    /// text is looked up once, not once per row.
+    fn codes_into(&self, into: &mut TextColumn) -> Vec<u32> {
+        if let Some(t) = &self.text {
+            return t
+                .iter()
+                .map(|s| {
+                    if s.is_empty() {
+                        NO_LEVEL
+                    } else {
+                        into.intern(s)
+                    }
+                })
+                .collect();
+        }
+        let remap: Vec<u32> = self
+            .bad_texts
+            .levels
+            .iter()
+            .map(|s| {
+                let s = s.trim();
+                if s.is_empty() {
+                    NO_LEVEL
+                } else {
+                    into.intern(s)
+                }
+            })
+            .collect();
+        let mut bad = self.bad.iter().peekable();
+        (0..self.numbers.len())
+            .map(|r| match bad.peek() {
+                Some(b) if b.row == r => {
+                    let b = bad.next().expect("peeked");
+                    if b.text == KEPT_TEXT {
+                        NO_LEVEL
+                    } else {
+                        remap[b.text as usize]
+                    }
+                }
+                _ => into.intern(&cells::format_number(self.numbers[r])),
+            })
+            .collect()
     }
 }
 
@@ -430,10 +448,10 @@ fn add_wide(
     data.row_line.extend(lines.iter().copied());
     data.row_file.extend(std::iter::repeat_n(file_index, rows));
     let src = data.attribute_index(SOURCE_FILE);
-    data.attributes[src].pad_to(first_row);
-    for _ in 0..rows {
-        data.attributes[src].push(Some(path));
-    }
+    let source = &mut data.attributes[src];
+    source.pad_to(first_row);
+    let code = source.intern(path);
+    source.codes.resize(first_row + rows, code);
     for (col, role) in columns.into_iter().zip(roles) {
         match role {
             Role::Feature => {
@@ -442,34 +460,38 @@ fn add_wide(
                 values.resize(first_row, f64::NAN);
                 file_audit.cells_read += rows as u64;
                 file_audit.values_used += (rows - col.bad.len()) as u64;
-                for (r, text, reason) in &col.bad {
+                for b in &col.bad {
                     unused.push(Unused {
                         file: path.to_string(),
-                        line: lines[*r],
+                        line: lines[b.row],
                         column: col.name.clone(),
-                        text: text.clone(),
-                        reason: (*reason).to_string(),
+                        text: col.bad_text(b).to_string(),
+                        reason: b.reason.to_string(),
                     });
                 }
-                values.extend_from_slice(&col.numbers);
+                if values.is_empty() {
+                    *values = col.numbers;
+                } else {
+                    values.extend_from_slice(&col.numbers);
+                }
                 file_audit.features.push(col.name);
             }
             Role::Text | Role::Id => {
                 let is_id = role == Role::Id;
                 if is_id {
-                    if data.part_ids.len() < first_row {
-                        data.part_ids.resize(first_row, String::new());
-                    }
-                    for r in 0..rows {
-                        data.part_ids.push(col.cell_text(r).unwrap_or_default());
+                    data.part_ids.pad_to(first_row);
+                    match col.text {
+                        Some(text) => data.part_ids.append(text),
+                        None => (0..rows).for_each(|r| {
+                            data.part_ids.push(&col.cell_text(r).unwrap_or_default())
+                        }),
                     }
                 } else {
                     let ai = data.attribute_index(&col.name);
-                    data.attributes[ai].pad_to(first_row);
-                    for r in 0..rows {
-                        let t = col.cell_text(r);
-                        data.attributes[ai].push(t.as_deref());
-                    }
+                    let attr = &mut data.attributes[ai];
+                    attr.pad_to(first_row);
+                    let codes = col.codes_into(attr);
+                    attr.codes.extend(codes);
                     file_audit.attributes.push(col.name);
                 }
             }

@@ -3,7 +3,8 @@
 
 use super::audit::FileAudit;
 use super::cells::{self, parse_cell};
-use super::{RawColumn, RawTable};
+use super::text::{Dictionary, Strings};
+use super::{BadCell, RawColumn, RawTable};
 use crate::error::{InputError, Result};
 use polars::prelude::*;
 
@@ -27,7 +28,12 @@ pub(crate) fn read_parquet(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Resu
             name: name.clone(),
             numbers: Vec::with_capacity(height),
             bad: Vec::new(),
-            text: keep.then(Vec::new),
+            bad_texts: Dictionary::default(),
+            text: keep.then(Strings::default),
+        };
+        let bad = |out: &mut RawColumn, row: usize, text: &str, reason: &'static str| {
+            let text = out.bad_texts.code(text);
+            out.bad.push(BadCell { row, text, reason });
         };
         let err = |e: PolarsError| {
             InputError::at(
@@ -44,11 +50,11 @@ pub(crate) fn read_parquet(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Resu
                     Some(x) if x.is_finite() => out.numbers.push(x),
                     Some(x) => {
                         out.numbers.push(f64::NAN);
-                        out.bad.push((r, format!("{x}"), cells::NON_FINITE));
+                        bad(&mut out, r, &format!("{x}"), cells::NON_FINITE);
                     }
                     None => {
                         out.numbers.push(f64::NAN);
-                        out.bad.push((r, String::new(), cells::BLANK));
+                        bad(&mut out, r, "", cells::BLANK);
                     }
                 }
             }
@@ -57,13 +63,13 @@ pub(crate) fn read_parquet(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Resu
             for (r, v) in as_text.str().map_err(err)?.iter().enumerate() {
                 let t = v.unwrap_or("");
                 if let Some(text) = &mut out.text {
-                    text.push(t.trim().to_string());
+                    text.push(t.trim());
                 }
                 match parse_cell(t.as_bytes(), false) {
                     Ok(x) => out.numbers.push(x),
                     Err(reason) => {
                         out.numbers.push(f64::NAN);
-                        out.bad.push((r, t.trim().to_string(), reason));
+                        bad(&mut out, r, t.trim(), reason);
                     }
                 }
             }
