@@ -497,3 +497,28 @@ fn lines_are_physical_in_crlf_files_with_empty_lines_and_quotes() {
         assert_eq!(v["audit"]["rows_read"], 6, "{file}");
     }
 }
+
+#[test]
+fn a_file_whose_values_cannot_be_held_is_refused_with_a_message() {
+    // The memory check, driven by a limit below what 200 rows × 3 columns need.
+    let mut csv = String::from("part,a,b\n");
+    for i in 0..200 {
+        csv.push_str(&format!("P{i},{}.5,{}.25\n", i % 7, i % 5));
+    }
+    let dir = dir_with(&[("big.csv", &csv)]);
+    let out = capstack()
+        .current_dir(dir.path())
+        .env("CAPSTACK_MEMORY_LIMIT", "1000")
+        .args(["capability", "big.csv"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("big.csv") && err.contains("GiB of memory is available"),
+        "{err}"
+    );
+    // With room, the same file reads.
+    let v = json_of(dir.path(), &["big.csv"]);
+    assert_eq!(v["audit"]["rows_read"], 200);
+}

@@ -116,14 +116,19 @@ pub(super) fn check_dataset(data: &mut Dataset, specs: &SpecSet) {
     use rayon::prelude::*;
     // Per feature, in parallel: which rows are implausible, the resolution, distinct values.
     let embedded = &data.embedded_specs;
-    let checks: Vec<FeatureCheck> = data
-        .features
-        .par_iter()
-        .map(|f| {
-            let spec = specs.get(&f.name).or_else(|| embedded.get(&f.name));
-            check_feature(&f.values, spec)
-        })
-        .collect();
+    // The duplicate-part search runs beside them.
+    let (checks, duplicates): (Vec<FeatureCheck>, _) = rayon::join(
+        || {
+            data.features
+                .par_iter()
+                .map(|f| {
+                    let spec = specs.get(&f.name).or_else(|| embedded.get(&f.name));
+                    check_feature(&f.values, spec)
+                })
+                .collect()
+        },
+        || duplicate_parts(&data.part_ids),
+    );
     for (fi, check) in checks.into_iter().enumerate() {
         let name = data.features[fi].name.clone();
         for &r in &check.implausible {
@@ -174,11 +179,7 @@ pub(super) fn check_dataset(data: &mut Dataset, specs: &SpecSet) {
                 });
             }
         }
-        let used = data.features[fi]
-            .values
-            .iter()
-            .filter(|v| !v.is_nan())
-            .count() as u64;
+        let used = check.used;
         let unused = data
             .audit
             .unused
@@ -204,7 +205,7 @@ pub(super) fn check_dataset(data: &mut Dataset, specs: &SpecSet) {
             });
         }
     }
-    flag_duplicate_parts(data);
+    flag_duplicate_parts(data, duplicates);
     let a = &mut data.audit;
     a.rows_read = a.files.iter().map(|f| f.rows_read).sum();
     a.rows_used = a.files.iter().map(|f| f.rows_used).sum();
@@ -218,6 +219,8 @@ struct FeatureCheck {
     /// Distinct values, counted up to `MIN_DISTINCT_VALUES` (enough for the check).
     distinct: u64,
     resolution: Option<f64>,
+    /// Values left once the implausible ones are out.
+    used: u64,
 }
 
 fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
@@ -238,10 +241,12 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
     };
     let mut seen: Vec<f64> = Vec::new();
     let mut decimals = 0u32;
+    let mut used = 0u64;
     for (r, &v) in values.iter().enumerate() {
-        if v.is_nan() || implausible.binary_search(&r).is_ok() {
+        if v.is_nan() || (!implausible.is_empty() && implausible.binary_search(&r).is_ok()) {
             continue;
         }
+        used += 1;
         if (seen.len() as u64) < MIN_DISTINCT_VALUES && !seen.contains(&v) {
             seen.push(v);
         }
@@ -255,13 +260,25 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
         implausible,
         distinct: seen.len() as u64,
         resolution,
+        used,
     }
 }
 
 /// Whether `v` has at most `k` decimal places (the test of [`decimal_places`] at k).
 fn has_at_most(v: f64, k: u32) -> bool {
     let scaled = v.abs() * POW10[k.min(9) as usize];
-    (scaled - scaled.round()).abs() <= 1e-9 * scaled.max(1.0)
+    (scaled - round_half_even(scaled)).abs() <= 1e-9 * scaled.max(1.0)
+}
+
+/// x rounded to the nearest integer (ties to even) by adding and removing 1.5·2⁵², which
+/// leaves no fraction bits (no library call in the hot loop); x ≥ 2⁵¹ is already an integer.
+fn round_half_even(x: f64) -> f64 {
+    const SHIFT: f64 = 6_755_399_441_055_744.0;
+    if x.abs() >= 2_251_799_813_685_248.0 {
+        x
+    } else {
+        (x + SHIFT) - SHIFT
+    }
 }
 
 const POW10: [f64; 10] = [1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9];
@@ -271,14 +288,12 @@ fn decimal_places(v: f64) -> u32 {
     (0..9).find(|&k| has_at_most(v, k)).unwrap_or(9)
 }
 
-fn flag_duplicate_parts(data: &mut Dataset) {
-    if data.part_ids.is_empty() {
-        return;
-    }
+/// Rows whose part id was seen before: (row, first row with that id).
+fn duplicate_parts(ids: &super::Strings) -> Vec<(usize, usize)> {
     let mut first_seen: FxHashMap<&str, usize> =
-        FxHashMap::with_capacity_and_hasher(data.part_ids.len(), Default::default());
+        FxHashMap::with_capacity_and_hasher(ids.len(), Default::default());
     let mut dups = Vec::new();
-    for (r, id) in data.part_ids.iter().enumerate() {
+    for (r, id) in ids.iter().enumerate() {
         if id.is_empty() {
             continue;
         }
@@ -288,6 +303,10 @@ fn flag_duplicate_parts(data: &mut Dataset) {
             first_seen.insert(id, r);
         }
     }
+    dups
+}
+
+fn flag_duplicate_parts(data: &mut Dataset, dups: Vec<(usize, usize)>) {
     for (r, first) in dups {
         let file = data.files[data.row_file[r] as usize].clone();
         let first_file = &data.files[data.row_file[first] as usize];

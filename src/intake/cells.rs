@@ -14,6 +14,12 @@ pub fn parse_cell(raw: &[u8], decimal_comma: bool) -> Result<f64, &'static str> 
     }
     let parsed = if let Some(v) = fast_parse(s) {
         v
+    } else if !matches!(
+        s[0],
+        b'0'..=b'9' | b'+' | b'-' | b'.' | b'i' | b'I' | b'n' | b'N'
+    ) {
+        // Text such as a part id or a lot code: no number starts this way.
+        return Err(NON_NUMERIC);
     } else {
         let text = std::str::from_utf8(s).map_err(|_| NON_NUMERIC)?;
         if decimal_comma && text.bytes().filter(|&b| b == b',').count() == 1 && !text.contains('.')

@@ -41,7 +41,7 @@ pub(super) fn add_long(
     let bad_value: HashMap<usize, (&str, &'static str)> = columns[val_c]
         .bad
         .iter()
-        .map(|b| (b.row, (columns[val_c].bad_text(b), b.reason)))
+        .map(|b| (b.row(), (columns[val_c].bad_text(b), b.reason())))
         .collect();
     let spec_bad: Vec<HashMap<usize, &str>> = spec_c
         .iter()
@@ -50,8 +50,8 @@ pub(super) fn add_long(
                 columns[c]
                     .bad
                     .iter()
-                    .filter(|b| b.reason != super::cells::BLANK)
-                    .map(|b| (b.row, columns[c].bad_text(b)))
+                    .filter(|b| b.reason() != super::cells::BLANK)
+                    .map(|b| (b.row(), columns[c].bad_text(b)))
                     .collect()
             })
         })

@@ -18,6 +18,7 @@ pub use specs::{read_spec_sheet, read_spec_sheets, Spec, SpecSet};
 pub use text::{Dictionary, Strings, TextColumn, NO_LEVEL};
 
 use crate::error::{InputError, Result};
+use rayon::prelude::*;
 use std::collections::HashMap;
 use std::path::Path;
 
@@ -254,13 +255,42 @@ pub(crate) struct RawColumn {
     pub text: Option<Strings>,
 }
 
-/// A cell that was not a finite number.
+/// A cell that was not a finite number, in 12 bytes (a column of a million lot codes is a
+/// million of them).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(crate) struct BadCell {
-    pub row: usize,
+    row: u32,
     /// Code of its text in the column's `bad_texts`, or [`KEPT_TEXT`].
     pub text: u32,
-    pub reason: &'static str,
+    reason: u8,
+}
+
+/// The reasons a cell is not used, as stored in a [`BadCell`].
+const REASONS: [&str; 3] = [cells::BLANK, cells::NON_NUMERIC, cells::NON_FINITE];
+
+impl BadCell {
+    /// A bad cell at `row` of its file (rows beyond 2³² − 1, which no machine could hold as
+    /// numbers anyway, are recorded at the last row).
+    pub fn new(row: usize, text: u32, reason: &'static str) -> Self {
+        Self {
+            row: u32::try_from(row).unwrap_or(u32::MAX),
+            text,
+            reason: REASONS.iter().position(|r| *r == reason).unwrap_or(1) as u8,
+        }
+    }
+
+    pub fn row(&self) -> usize {
+        self.row as usize
+    }
+
+    pub fn reason(&self) -> &'static str {
+        REASONS[self.reason as usize]
+    }
+
+    /// The same cell `by` rows further down.
+    pub fn shifted(self, by: usize, text: u32) -> Self {
+        Self::new(self.row() + by, text, self.reason())
+    }
 }
 
 /// The text of the bad cell is the column's kept text of that row.
@@ -272,7 +302,7 @@ impl RawColumn {
         let non_numeric = self
             .bad
             .iter()
-            .filter(|b| b.reason == cells::NON_NUMERIC)
+            .filter(|b| b.reason() == cells::NON_NUMERIC)
             .count();
         let numeric = self.numbers.len() - self.bad.len();
         numeric > non_numeric
@@ -281,7 +311,7 @@ impl RawColumn {
     /// The text of a bad cell as found.
     pub fn bad_text(&self, b: &BadCell) -> &str {
         match (b.text, &self.text) {
-            (KEPT_TEXT, Some(t)) => t.get(b.row).unwrap_or_default(),
+            (KEPT_TEXT, Some(t)) => t.get(b.row()).unwrap_or_default(),
             (KEPT_TEXT, None) => "",
             (code, _) => self.bad_texts.get(code),
         }
@@ -295,7 +325,7 @@ impl RawColumn {
         let v = self.numbers[row];
         if v.is_nan() {
             // `bad` is in row order.
-            let i = self.bad.binary_search_by_key(&row, |b| b.row).ok()?;
+            let i = self.bad.binary_search_by_key(&row, |b| b.row()).ok()?;
             Some(self.bad_text(&self.bad[i]).to_string()).filter(|s| !s.trim().is_empty())
         } else {
             Some(cells::format_number(v))
@@ -333,7 +363,7 @@ impl RawColumn {
         let mut bad = self.bad.iter().peekable();
         (0..self.numbers.len())
             .map(|r| match bad.peek() {
-                Some(b) if b.row == r => {
+                Some(b) if b.row() == r => {
                     let b = bad.next().expect("peeked");
                     if b.text == KEPT_TEXT {
                         NO_LEVEL
@@ -422,18 +452,26 @@ fn add_wide(
     let first_row = data.rows();
     let rows = lines.len();
     // Rows with no usable feature value are rejected (they still count as read).
+    let feature_values: Vec<&[f64]> = columns
+        .iter()
+        .zip(&roles)
+        .filter(|(_, r)| **r == Role::Feature)
+        .map(|(c, _)| c.numbers.as_slice())
+        .collect();
     let mut row_has_value = vec![false; rows];
-    let mut unused = Vec::new();
-    for (col, role) in columns.iter().zip(&roles) {
-        if *role != Role::Feature {
-            continue;
-        }
-        for (r, v) in col.numbers.iter().enumerate() {
-            if !v.is_nan() {
-                row_has_value[r] = true;
+    const CHUNK: usize = 1 << 16;
+    row_has_value
+        .par_chunks_mut(CHUNK)
+        .enumerate()
+        .for_each(|(k, has)| {
+            for values in &feature_values {
+                let part = &values[k * CHUNK..(k * CHUNK + has.len())];
+                for (h, v) in has.iter_mut().zip(part) {
+                    *h |= !v.is_nan();
+                }
             }
-        }
-    }
+        });
+    let mut unused = Vec::new();
     let mut rejected = rejected;
     for (r, has) in row_has_value.iter().enumerate() {
         if !has {
@@ -445,7 +483,11 @@ fn add_wide(
         }
     }
 
-    data.row_line.extend(lines.iter().copied());
+    if data.row_line.is_empty() {
+        data.row_line = lines;
+    } else {
+        data.row_line.extend_from_slice(&lines);
+    }
     data.row_file.extend(std::iter::repeat_n(file_index, rows));
     let src = data.attribute_index(SOURCE_FILE);
     let source = &mut data.attributes[src];
@@ -463,10 +505,10 @@ fn add_wide(
                 for b in &col.bad {
                     unused.push(Unused {
                         file: path.to_string(),
-                        line: lines[b.row],
+                        line: data.row_line[first_row + b.row()],
                         column: col.name.clone(),
                         text: col.bad_text(b).to_string(),
-                        reason: b.reason.to_string(),
+                        reason: b.reason().to_string(),
                     });
                 }
                 if values.is_empty() {

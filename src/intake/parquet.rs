@@ -33,7 +33,7 @@ pub(crate) fn read_parquet(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Resu
         };
         let bad = |out: &mut RawColumn, row: usize, text: &str, reason: &'static str| {
             let text = out.bad_texts.code(text);
-            out.bad.push(BadCell { row, text, reason });
+            out.bad.push(BadCell::new(row, text, reason));
         };
         let err = |e: PolarsError| {
             InputError::at(
