@@ -236,28 +236,27 @@ pub fn study(
                     usl: s.usl,
                 })
                 .unwrap_or_default();
-            let used_rows: Vec<usize> = rows
-                .iter()
-                .copied()
-                .filter(|&r| !feature.values[r].is_nan())
-                .collect();
-            let values: Vec<f64> = used_rows.iter().map(|&r| feature.values[r]).collect();
             let files_with: Vec<bool> = data
                 .audit
                 .files
                 .iter()
                 .map(|fa| fa.features.contains(&feature.name))
                 .collect();
-            let missing = rows
-                .iter()
-                .filter(|&&r| {
-                    feature.values[r].is_nan()
-                        && files_with
-                            .get(data.row_file[r] as usize)
-                            .copied()
-                            .unwrap_or(false)
-                })
-                .count() as u64;
+            // One pass: the rows with a value, their values, and the rows of files that have
+            // this feature but no value for it (missing).
+            let mut used_rows = Vec::with_capacity(rows.len());
+            let mut values = Vec::with_capacity(rows.len());
+            let mut missing = 0u64;
+            for &r in rows.iter() {
+                let v = feature.values[r];
+                if v.is_nan() {
+                    let file = data.row_file[r] as usize;
+                    missing += u64::from(files_with.get(file).copied().unwrap_or(false));
+                } else {
+                    used_rows.push(r);
+                    values.push(v);
+                }
+            }
             let subgroups = match &settings.subgroups {
                 Subgrouping::Individuals => None,
                 Subgrouping::Size(m) => {
@@ -640,8 +639,12 @@ pub type Locate<'a> = dyn Fn(usize) -> (Option<String>, Option<u64>, Option<Stri
 
 /// The chart's signals under the chosen tests, each placed in its file for individuals charts.
 pub fn build_stability(chart: Chart, rules: &[u8], individual: bool, locate: &Locate) -> Stability {
-    let signals: Vec<SignalAt> = chart_signals(&chart, rules)
+    let found = chart_signals(&chart, rules);
+    let signal_count = found.len();
+    // Only the listed signals are placed in their files (a long chart has thousands).
+    let signals: Vec<SignalAt> = found
         .into_iter()
+        .take(MAX_LISTED_SIGNALS)
         .map(|signal| {
             let (file, line, part) = if individual {
                 locate(signal.point)
@@ -662,10 +665,7 @@ pub fn build_stability(chart: Chart, rules: &[u8], individual: bool, locate: &Lo
         })
         .collect();
     let expected = control::expected_by_chance(chart.location_points.len(), rules, individual);
-    let chance_p = poisson_at_least(signals.len(), expected);
-    let signal_count = signals.len();
-    let mut signals = signals;
-    signals.truncate(MAX_LISTED_SIGNALS);
+    let chance_p = poisson_at_least(signal_count, expected);
     Stability {
         points: chart.location_points.len(),
         expected_by_chance: expected,

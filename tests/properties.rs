@@ -157,3 +157,24 @@ proptest! {
         prop_assert_eq!(a.cells_read, a.values_used + a.unused.len() as u64);
     }
 }
+
+proptest! {
+    /// Sorting by the decimal grid or by comparison gives the values in `total_cmp` order,
+    /// each exactly once, on and off the grid.
+    #[test]
+    fn sort_values_orders_every_sample_exactly(
+        grid in prop::collection::vec(-50_000i64..50_000, 4096..6000),
+        decimals in 0i32..5,
+        off_grid in prop::collection::vec((0usize..4096, -1e-3f64..1e-3), 0..3),
+    ) {
+        let step = 10f64.powi(-decimals);
+        let mut x: Vec<f64> = grid.iter().map(|&k| 25.0 + k as f64 * step).collect();
+        for (i, d) in off_grid {
+            x[i] += d;
+        }
+        let mut expected = x.clone();
+        expected.sort_by(f64::total_cmp);
+        capstack::stats::moments::sort_values(&mut x);
+        prop_assert_eq!(x, expected);
+    }
+}

@@ -325,7 +325,13 @@ fn flag_duplicate_parts(data: &mut Dataset, dups: Vec<(usize, usize)>) {
     }
 }
 
-/// Median and a robust spread (the interquartile range) for features without a spec.
+/// Values a feature without a spec needs before its quartiles judge plausibility: with fewer,
+/// two close values make a tiny interquartile range and a real part looks like a typing error
+/// (capstack's choice; found by the intake property test).
+const MIN_VALUES_FOR_SPREAD: usize = 10;
+
+/// Median and a robust spread (the interquartile range) for features without a spec; a zero
+/// spread (no check) below [`MIN_VALUES_FOR_SPREAD`] values.
 fn robust_centre_and_spread(values: &[f64]) -> (f64, f64) {
     // A strided sample is plenty for a check at a thousand spreads.
     let stride = (values.len() / 20_000).max(1);
@@ -335,7 +341,7 @@ fn robust_centre_and_spread(values: &[f64]) -> (f64, f64) {
         .copied()
         .filter(|x| !x.is_nan())
         .collect();
-    if v.len() < 4 {
+    if v.len() < MIN_VALUES_FOR_SPREAD {
         return (0.0, 0.0);
     }
     v.sort_unstable_by(f64::total_cmp);

@@ -3,7 +3,7 @@
 
 use super::moments::moments;
 use super::normal;
-use super::normality::{anderson_darling, shapiro_wilk, AndersonDarling, ShapiroWilk};
+use super::normality::{anderson_darling_runs, shapiro_wilk_runs, AndersonDarling, ShapiroWilk};
 use super::within::{moving_range_sigma, subgroup_sigma, WithinMethod};
 use serde::Serialize;
 use statrs::distribution::{ChiSquared, ContinuousCDF};
@@ -165,9 +165,8 @@ pub fn capability(
         _ => None,
     };
     let c = options.confidence;
-    let mut sorted: Vec<f64> = ordered.to_vec();
-    sorted.sort_unstable_by(f64::total_cmp);
-    let shapiro = shapiro_wilk(&sorted);
+    let runs = super::moments::Runs::of_range(ordered, m.min, m.max);
+    let shapiro = shapiro_wilk_runs(&runs);
     if shapiro.is_some_and(|s| s.p_approximate) {
         notes.push(format!(
             "n > {}: Shapiro–Wilk p is approximate",
@@ -183,7 +182,7 @@ pub fn capability(
         expected_overall: normal_ppm(m.mean, m.sd, limits),
     };
     let ad = if n >= 3 {
-        anderson_darling(&sorted, m.mean, m.sd)
+        anderson_darling_runs(&runs, m.mean, m.sd)
     } else {
         None
     };

@@ -75,19 +75,39 @@ pub struct Chart {
     /// The plotted points: one per value (individuals) or per subgroup.
     #[serde(skip)]
     pub location_points: Vec<f64>,
-    /// σ of each location point (its limits are CL ± 3σ).
+    /// σ of each location point (its limits are CL ± 3σ): one per point, or a single value for
+    /// all (individuals); read with [`Chart::sigma_at`].
     #[serde(skip)]
     pub location_sigma: Vec<f64>,
     /// Moving ranges (from the second value on), or subgroup ranges / sds.
     #[serde(skip)]
     pub dispersion_points: Vec<f64>,
-    /// Upper limit of each dispersion point.
+    /// Upper limit of each dispersion point: one per point, or a single value for all; read
+    /// with [`Chart::ucl_at`].
     #[serde(skip)]
     pub dispersion_ucl: Vec<f64>,
     /// When the chart is drawn on normal scores: the scores the tests run on (the location
     /// points are then the measured values and the limits are mapped back to them).
     #[serde(skip)]
     pub scores: Option<Vec<f64>>,
+}
+
+impl Chart {
+    /// σ of location point `i`.
+    pub fn sigma_at(&self, i: usize) -> f64 {
+        match self.location_sigma.as_slice() {
+            [one] => *one,
+            all => all[i],
+        }
+    }
+
+    /// Upper limit of dispersion point `i`.
+    pub fn ucl_at(&self, i: usize) -> f64 {
+        match self.dispersion_ucl.as_slice() {
+            [one] => *one,
+            all => all[i],
+        }
+    }
 }
 
 /// A point that signals.
@@ -106,9 +126,9 @@ pub fn individuals(x: &[f64]) -> Option<Chart> {
     if x.len() < 3 {
         return None;
     }
-    let centre = x.iter().sum::<f64>() / x.len() as f64;
+    let centre = super::moments::sum_of(x, |v| v) / x.len() as f64;
     let mr: Vec<f64> = x.windows(2).map(|w| (w[1] - w[0]).abs()).collect();
-    let mr_bar = mr.iter().sum::<f64>() / mr.len() as f64;
+    let mr_bar = super::moments::sum_of(&mr, |v| v) / mr.len() as f64;
     let sigma = mr_bar / d2(2);
     let f = chart_factors(2);
     Some(Chart {
@@ -125,8 +145,8 @@ pub fn individuals(x: &[f64]) -> Option<Chart> {
             ucl: f.d4_upper * mr_bar,
         },
         location_points: x.to_vec(),
-        location_sigma: vec![sigma; x.len()],
-        dispersion_ucl: vec![f.d4_upper * mr_bar; mr.len()],
+        location_sigma: vec![sigma],
+        dispersion_ucl: vec![f.d4_upper * mr_bar],
         dispersion_points: mr,
         scores: None,
     })
@@ -223,9 +243,10 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
     let z: Vec<f64> = chart
         .location_points
         .iter()
-        .zip(&chart.location_sigma)
-        .map(|(x, s)| {
-            if *s > 0.0 {
+        .enumerate()
+        .map(|(i, x)| {
+            let s = chart.sigma_at(i);
+            if s > 0.0 {
                 (x - chart.location.centre) / s
             } else {
                 0.0
@@ -247,13 +268,8 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
     if rules.contains(&1) {
         // Moving range k belongs to value k + 1.
         let offset = usize::from(chart.kind.starts_with("individuals"));
-        for (i, (v, u)) in chart
-            .dispersion_points
-            .iter()
-            .zip(&chart.dispersion_ucl)
-            .enumerate()
-        {
-            if v > u {
+        for (i, v) in chart.dispersion_points.iter().enumerate() {
+            if *v > chart.ucl_at(i) {
                 out.push(Signal {
                     point: i + offset,
                     rule: 1,
@@ -266,29 +282,28 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
     out
 }
 
+/// −1, 0 or 1 without branches (the signs of a stable process's points are a coin toss,
+/// which a branch predictor cannot learn).
 fn sign(v: f64) -> i8 {
-    if v > 0.0 {
-        1
-    } else if v < 0.0 {
-        -1
-    } else {
-        0
-    }
+    i8::from(v > 0.0) - i8::from(v < 0.0)
 }
 
 /// A run's length after one more point: extended, or restarted at 1 (0 when the point cannot
 /// start one, e.g. on the centre line).
 fn run_after(run: usize, extends: bool, starts: bool) -> usize {
-    if extends {
-        run + 1
-    } else {
-        usize::from(starts)
-    }
+    // Arithmetic rather than a branch, for the same reason as `sign`.
+    let extends = usize::from(extends);
+    extends * (run + 1) + (1 - extends) * usize::from(starts)
 }
 
 /// The Nelson tests on standardised points: (point, rule) for every signal, by point then rule.
 pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
-    let on = |r: u8| rules.contains(&r);
+    let mut on = [false; 9];
+    for &r in rules {
+        if let Some(slot) = on.get_mut(r as usize) {
+            *slot = true;
+        }
+    }
     let mut out = Vec::new();
     let (mut side_run, mut side) = (0usize, 0i8);
     let (mut trend_run, mut trend) = (0usize, 0i8);
@@ -306,10 +321,12 @@ pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
             alt_run = run_after(alt_run, step != 0 && step == -last_step, step != 0);
             last_step = step;
         }
-        within_run = if v.abs() < 1.0 { within_run + 1 } else { 0 };
-        beyond_run = if v.abs() > 1.0 { beyond_run + 1 } else { 0 };
+        if on[7] || on[8] {
+            within_run = usize::from(v.abs() < 1.0) * (within_run + 1);
+            beyond_run = usize::from(v.abs() > 1.0) * (beyond_run + 1);
+        }
+        // The current point is beyond `limit` on its side, with enough company in the window.
         let beyond_on_side = |k: usize, limit: f64| -> bool {
-            // The current point is beyond `limit` on its side, with enough company in the window.
             let sign = v.signum();
             if v.abs() <= limit || i + 1 < k {
                 return false;
@@ -320,19 +337,30 @@ pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
                 .count()
                 >= k - 1
         };
-        let mut hit = |rule: u8, cond: bool| {
-            if on(rule) && cond {
-                out.push((i, rule));
-            }
-        };
-        hit(1, v.abs() > 3.0);
-        hit(2, side_run >= 9);
-        hit(3, trend_run >= 5);
-        hit(4, alt_run >= 13);
-        hit(5, beyond_on_side(3, 2.0));
-        hit(6, beyond_on_side(5, 1.0));
-        hit(7, within_run >= 15);
-        hit(8, beyond_run >= 8);
+        if on[1] && v.abs() > 3.0 {
+            out.push((i, 1));
+        }
+        if on[2] && side_run >= 9 {
+            out.push((i, 2));
+        }
+        if on[3] && trend_run >= 5 {
+            out.push((i, 3));
+        }
+        if on[4] && alt_run >= 13 {
+            out.push((i, 4));
+        }
+        if on[5] && beyond_on_side(3, 2.0) {
+            out.push((i, 5));
+        }
+        if on[6] && beyond_on_side(5, 1.0) {
+            out.push((i, 6));
+        }
+        if on[7] && within_run >= 15 {
+            out.push((i, 7));
+        }
+        if on[8] && beyond_run >= 8 {
+            out.push((i, 8));
+        }
     }
     out
 }

@@ -1,6 +1,7 @@
 //! Normality tests: Shapiro–Wilk (Royston's AS R94) and Anderson–Darling with estimated mean
 //! and sd (D'Agostino & Stephens 1986).
 
+use super::moments::Runs;
 use super::normal;
 use std::collections::HashMap;
 use std::sync::{Arc, Mutex, OnceLock};
@@ -22,6 +23,10 @@ pub struct AndersonDarling {
     pub p: f64,
 }
 
+/// Above this many distinct values the Anderson–Darling sum uses the interpolated ln Φ
+/// ([`normal::ln_cdf_fast`]); up to it every term is computed from erfc.
+pub const EXACT_AD_N: usize = 4096;
+
 /// Largest n for which Royston's approximation of the null distribution was fitted.
 pub const SHAPIRO_WILK_MAX_N: usize = 5000;
 
@@ -29,18 +34,36 @@ pub const SHAPIRO_WILK_MAX_N: usize = 5000;
 /// Statistics 44(4):547–551: the same steps as scipy's `shapiro` and R's `shapiro.test`.
 /// `None` for n < 3 or zero range.
 pub fn shapiro_wilk(sorted: &[f64]) -> Option<ShapiroWilk> {
-    let n = sorted.len();
-    if n < 3 || sorted[n - 1] - sorted[0] <= 0.0 {
+    shapiro_wilk_runs(&Runs::from_sorted(sorted))
+}
+
+/// [`shapiro_wilk`] on the sample's runs of equal values.
+///
+/// # Formula
+/// W = (Σ aᵢ x₍ᵢ₎)² / Σ(xᵢ − x̄)². Since Σ aᵢ = 0, Σ aᵢ x₍ᵢ₎ = Σ aᵢ (x₍ᵢ₎ − x̄) (no cancellation
+/// of the leading digits), and a run of c equal values v at ranks r..r+c contributes
+/// (v − x̄)·(Aᵣ₊꜀ − Aᵣ) with A the prefix sums of the coefficients.
+pub fn shapiro_wilk_runs(runs: &Runs) -> Option<ShapiroWilk> {
+    let n = runs.n();
+    if n < 3 || runs.values.len() < 2 {
         return None;
     }
-    let a = weights(n);
-    let mean = sorted.iter().sum::<f64>() / n as f64;
-    let ss: f64 = sorted.iter().map(|x| (x - mean) * (x - mean)).sum();
-    // a is antisymmetric: Σ aᵢx₍ᵢ₎ = Σ_{i<n/2} a_{n−1−i}(x₍ₙ₋₁₋ᵢ₎ − x₍ᵢ₎), more accurate.
-    let half = n / 2;
-    let num: f64 = (0..half)
-        .map(|i| a[n - 1 - i] * (sorted[n - 1 - i] - sorted[i]))
+    let nf = n as f64;
+    let (sum, _) = weighted_sums(runs);
+    let mean = sum / nf;
+    let ss: f64 = runs
+        .values
+        .iter()
+        .zip(&runs.counts)
+        .map(|(v, &c)| c as f64 * (v - mean) * (v - mean))
         .sum();
+    let prefix = prefix_weights(n);
+    let mut num = 0.0;
+    let mut rank = 0;
+    for (&v, &c) in runs.values.iter().zip(&runs.counts) {
+        num += (v - mean) * (prefix[rank + c] - prefix[rank]);
+        rank += c;
+    }
     let w = (num * num / ss).min(1.0);
     let p = shapiro_wilk_p(w, n);
     Some(ShapiroWilk {
@@ -48,6 +71,41 @@ pub fn shapiro_wilk(sorted: &[f64]) -> Option<ShapiroWilk> {
         p,
         p_approximate: n > SHAPIRO_WILK_MAX_N,
     })
+}
+
+/// Σ c·v and Σ c over the runs.
+fn weighted_sums(runs: &Runs) -> (f64, usize) {
+    let sum = runs
+        .values
+        .iter()
+        .zip(&runs.counts)
+        .map(|(v, &c)| c as f64 * v)
+        .sum();
+    (sum, runs.n())
+}
+
+/// Prefix sums A₀ = 0, Aₖ = a₀ + … + aₖ₋₁ of the Shapiro–Wilk coefficients for n.
+fn prefix_weights(n: usize) -> Arc<Vec<f64>> {
+    static CACHE: OnceLock<Mutex<HashMap<usize, Arc<Vec<f64>>>>> = OnceLock::new();
+    let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
+    if let Some(a) = cache.lock().map(|c| c.get(&n).cloned()).ok().flatten() {
+        return a;
+    }
+    let mut prefix = Vec::with_capacity(n + 1);
+    prefix.push(0.0);
+    let mut acc = 0.0;
+    for a in weights(n).iter() {
+        acc += a;
+        prefix.push(acc);
+    }
+    let prefix = Arc::new(prefix);
+    if let Ok(mut c) = cache.lock() {
+        if c.len() > 64 {
+            c.clear();
+        }
+        c.insert(n, prefix.clone());
+    }
+    prefix
 }
 
 fn shapiro_wilk_p(w: f64, n: usize) -> f64 {
@@ -76,22 +134,10 @@ fn shapiro_wilk_p(w: f64, n: usize) -> f64 {
     normal::sf((y - mu) / sigma)
 }
 
-/// The Shapiro–Wilk coefficients for sample size n (AS R94 steps 1–3), cached by n because a
-/// run usually tests many features of the same size.
-fn weights(n: usize) -> Arc<Vec<f64>> {
-    static CACHE: OnceLock<Mutex<HashMap<usize, Arc<Vec<f64>>>>> = OnceLock::new();
-    let cache = CACHE.get_or_init(|| Mutex::new(HashMap::new()));
-    if let Some(a) = cache.lock().map(|c| c.get(&n).cloned()).ok().flatten() {
-        return a;
-    }
-    let a = Arc::new(compute_weights(n));
-    if let Ok(mut c) = cache.lock() {
-        if c.len() > 64 {
-            c.clear();
-        }
-        c.insert(n, a.clone());
-    }
-    a
+/// The Shapiro–Wilk coefficients for sample size n (AS R94 steps 1–3); their prefix sums are
+/// cached by n because a run usually tests many features of the same size.
+fn weights(n: usize) -> Vec<f64> {
+    compute_weights(n)
 }
 
 fn compute_weights(n: usize) -> Vec<f64> {
@@ -153,18 +199,33 @@ fn compute_weights(n: usize) -> Vec<f64> {
 /// A² = −n − (1/n) Σ (2i − 1)[ln Φ(zᵢ) + ln(1 − Φ(zₙ₊₁₋ᵢ))]; A*² = A²(1 + 0.75/n + 2.25/n²);
 /// p from D'Agostino & Stephens (1986), Goodness-of-Fit Techniques, Table 4.9, 0 above 13.
 pub fn anderson_darling(sorted: &[f64], mean: f64, sd: f64) -> Option<AndersonDarling> {
-    let n = sorted.len();
+    anderson_darling_runs(&Runs::from_sorted(sorted), mean, sd)
+}
+
+/// [`anderson_darling`] on the sample's runs of equal values: a run of c values z at ranks
+/// r..r+c adds ln Φ(z)·Σ(2k + 1) = ln Φ(z)·c(2r + c) and ln(1 − Φ(z))·Σ(2(n − k) − 1) =
+/// ln(1 − Φ(z))·c(2n − 2r − c), so ln Φ is evaluated once per distinct value.
+pub fn anderson_darling_runs(runs: &Runs, mean: f64, sd: f64) -> Option<AndersonDarling> {
+    let n = runs.n();
     if n < 3 || sd.is_nan() || sd <= 0.0 {
         return None;
     }
     let nf = n as f64;
-    const TINY: f64 = 1e-300;
+    // Up to EXACT_AD_N distinct values every ln Φ comes from erfc; above, it is interpolated
+    // (its error is far below what the p-value table resolves).
+    let exact = runs.values.len() <= EXACT_AD_N;
     let mut s = 0.0;
-    for i in 0..n {
-        let zi = (sorted[i] - mean) / sd;
-        let zj = (sorted[n - 1 - i] - mean) / sd;
-        let term = normal::cdf(zi).max(TINY).ln() + normal::sf(zj).max(TINY).ln();
-        s += (2.0 * i as f64 + 1.0) * term;
+    let mut rank = 0usize;
+    for (&x, &c) in runs.values.iter().zip(&runs.counts) {
+        let z = (x - mean) / sd;
+        let (ln_cdf, ln_sf) = if exact {
+            ln_cdf_and_sf(z)
+        } else {
+            (normal::ln_cdf_fast(z), normal::ln_cdf_fast(-z))
+        };
+        let (r, c) = (rank as f64, c as f64);
+        s += c * (2.0 * r + c) * ln_cdf + c * (2.0 * nf - 2.0 * r - c) * ln_sf;
+        rank += c as usize;
     }
     let a2 = -nf - s / nf;
     let a2_adjusted = a2 * (1.0 + 0.75 / nf + 2.25 / (nf * nf));
@@ -173,6 +234,19 @@ pub fn anderson_darling(sorted: &[f64], mean: f64, sd: f64) -> Option<AndersonDa
         a2_adjusted,
         p: anderson_darling_p(a2_adjusted),
     })
+}
+
+/// (ln Φ(z), ln(1 − Φ(z))) from one erfc: the smaller tail t with full relative accuracy,
+/// the larger as ln(1 − t); both kept above ln(10⁻³⁰⁰).
+fn ln_cdf_and_sf(z: f64) -> (f64, f64) {
+    const TINY: f64 = 1e-300;
+    let tail = (0.5 * normal::erfc(z.abs() * std::f64::consts::FRAC_1_SQRT_2)).max(TINY);
+    let (small, large) = (tail.ln(), (-tail).ln_1p());
+    if z < 0.0 {
+        (small, large)
+    } else {
+        (large, small)
+    }
 }
 
 /// p-value of A*² for the normal case with both parameters estimated (Table 4.9 as
