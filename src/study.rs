@@ -358,11 +358,7 @@ pub fn model_for(
         reason,
         capability: models[i].capability,
     };
-    let sorted = || {
-        let mut s = values.to_vec();
-        s.sort_by(f64::total_cmp);
-        s
-    };
+    let runs = || crate::stats::moments::Runs::of(values);
     match settings.model {
         ModelRequest::Auto if !rejected => {
             // Nothing to choose between: the normal model with its ML parameters, no fits.
@@ -374,7 +370,7 @@ pub fn model_for(
             (choice, Vec::new())
         }
         ModelRequest::Auto => {
-            let models = fit::fit_all(&sorted(), limits);
+            let models = fit::fit_all_runs(&runs(), limits);
             let choice = fit::choose(&models)
                 .map(|(i, why)| pick(&models, i, format!("normality rejected; {why}")));
             (choice, models)
@@ -385,10 +381,10 @@ pub fn model_for(
         ),
         ModelRequest::Named(name) => {
             // The named family, with the normal model beside it for comparison.
-            let sorted = sorted();
+            let runs = runs();
             let models: Vec<FittedModel> = ["normal", name]
                 .iter()
-                .filter_map(|n| fit::fit_named(n, &sorted, limits))
+                .filter_map(|n| fit::fit_named_runs(n, &runs, limits))
                 .collect();
             let choice = match models.iter().position(|m| m.name == name) {
                 Some(i) => Some(pick(&models, i, format!("{name} requested (--model)"))),
@@ -586,15 +582,23 @@ pub fn chart_for(
         return control::individuals(values);
     };
     let d = m.distribution;
+    let score = |x: f64| {
+        let c = d.cdf(x);
+        let z = if c < 0.5 {
+            crate::stats::normal::quantile(c.max(1e-300))
+        } else {
+            -crate::stats::normal::quantile(d.sf(x).max(1e-300))
+        };
+        z.clamp(-40.0, 40.0)
+    };
+    // Each distinct value is scored once (a cdf such as the gamma's is costly), then looked up.
+    let runs = crate::stats::moments::Runs::of(values);
+    let distinct: Vec<f64> = runs.values.iter().map(|&x| score(x)).collect();
     let scores: Vec<f64> = values
         .iter()
-        .map(|&x| {
-            let z = if d.cdf(x) < 0.5 {
-                crate::stats::normal::quantile(d.cdf(x).max(1e-300))
-            } else {
-                -crate::stats::normal::quantile(d.sf(x).max(1e-300))
-            };
-            z.clamp(-40.0, 40.0)
+        .map(|x| match runs.values.binary_search_by(|v| v.total_cmp(x)) {
+            Ok(i) => distinct[i],
+            Err(_) => score(*x),
         })
         .collect();
     let mut chart = control::individuals(&scores)?;

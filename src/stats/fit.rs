@@ -9,6 +9,7 @@
 
 use super::capability::{Limits, Ppm};
 use super::distribution::{box_cox, Distribution};
+use super::moments::Runs;
 use super::normal;
 use serde::Serialize;
 use statrs::function::gamma::digamma;
@@ -22,9 +23,10 @@ pub const AIC_TIE: f64 = 2.0;
 /// Above this many values the threshold and Box–Cox λ are searched on evenly spaced order
 /// statistics (see [`search_sample`]): the search costs dozens of fits, the final fit one.
 pub const SEARCH_N: usize = 2000;
-/// Above this many values the fitted cdf in Anderson–Darling is interpolated between exact
-/// evaluations (see [`anderson_darling_fitted`]).
-pub const EXACT_AD_N: usize = 4096;
+/// Above this many distinct values the fitted cdf in Anderson–Darling is interpolated between
+/// this many exact evaluations (see [`anderson_darling_fitted`]); the fitted A² ranks models
+/// for the reader and feeds no p-value.
+pub const EXACT_AD_N: usize = 256;
 
 pub const MODEL_NAMES: [&str; 8] = [
     "normal",
@@ -76,37 +78,53 @@ pub struct FittedModel {
 /// Every family that can be fitted to these values (sorted ascending); families that cannot
 /// (non-positive values for a threshold-0 family, too few values) are left out.
 pub fn fit_all(sorted: &[f64], limits: &Limits) -> Vec<FittedModel> {
-    if sorted.len() < MIN_FIT_N || sorted[sorted.len() - 1] <= sorted[0] {
+    fit_all_runs(&Runs::from_sorted(sorted), limits)
+}
+
+/// [`fit_all`] on the sample's runs of equal values: every sum of the likelihoods and
+/// estimating equations is Σ count·f(value), so gauge data with few distinct values fit fast.
+pub fn fit_all_runs(runs: &Runs, limits: &Limits) -> Vec<FittedModel> {
+    if !fittable(runs) {
         return Vec::new();
     }
     MODEL_NAMES
         .iter()
-        .filter_map(|name| fit_named(name, sorted, limits))
+        .filter_map(|name| fit_named_runs(name, runs, limits))
         .collect()
 }
 
 /// One family by name.
 pub fn fit_named(name: &str, sorted: &[f64], limits: &Limits) -> Option<FittedModel> {
+    fit_named_runs(name, &Runs::from_sorted(sorted), limits)
+}
+
+/// Enough values, and more than one distinct value.
+fn fittable(runs: &Runs) -> bool {
+    runs.n() >= MIN_FIT_N && runs.values.len() >= 2
+}
+
+/// [`fit_named`] on runs of equal values.
+pub fn fit_named_runs(name: &str, runs: &Runs, limits: &Limits) -> Option<FittedModel> {
     let name = canonical(name)?;
-    if sorted.len() < MIN_FIT_N || sorted[sorted.len() - 1] <= sorted[0] {
+    if !fittable(runs) {
         return None;
     }
-    let positive = sorted[0] > 0.0;
+    let positive = runs.values[0] > 0.0;
     let (distribution, k, selectable, note) = match name {
-        "normal" => (normal_ml(sorted), 2, true, None),
-        "lognormal" if positive => (lognormal_ml(sorted, 0.0), 2, true, None),
-        "weibull" if positive => (weibull_ml(sorted, 0.0)?, 2, true, None),
-        "gamma" if positive => (gamma_ml(sorted, 0.0)?, 2, true, None),
+        "normal" => (normal_ml(runs), 2, true, None),
+        "lognormal" if positive => (lognormal_ml(runs, 0.0), 2, true, None),
+        "weibull" if positive => (weibull_ml(runs, 0.0)?, 2, true, None),
+        "gamma" if positive => (gamma_ml(runs, 0.0)?, 2, true, None),
         "lognormal_3p" | "weibull_3p" | "gamma_3p" => {
             let family = &name[..name.len() - 3];
-            let (d, edge) = threshold_ml(sorted, family)?;
+            let (d, edge) = threshold_ml(runs, family)?;
             let note = edge.then(|| {
                 "threshold at the smallest value: the likelihood grows without bound there".into()
             });
             (d, 3, !edge, note)
         }
         "boxcox" => {
-            let (d, shifted) = boxcox_ml(sorted)?;
+            let (d, shifted) = boxcox_ml(runs)?;
             let note = shifted.then(|| {
                 let Distribution::BoxCox { shift, .. } = d else {
                     unreachable!()
@@ -123,9 +141,33 @@ pub fn fit_named(name: &str, sorted: &[f64], limits: &Limits) -> Option<FittedMo
         k,
         selectable,
         note,
-        sorted,
+        runs,
         limits,
     ))
+}
+
+/// Σ count·f(value) over the runs.
+fn wsum(runs: &Runs, f: impl Fn(f64) -> f64) -> f64 {
+    runs.values
+        .iter()
+        .zip(&runs.counts)
+        .map(|(&v, &c)| c as f64 * f(v))
+        .sum()
+}
+
+/// The mean and n-divisor variance of f(value) over the runs, f evaluated once per run.
+fn weighted_mean_var(runs: &Runs, f: impl Fn(f64) -> f64) -> (f64, f64) {
+    let y: Vec<f64> = runs.values.iter().map(|&v| f(v)).collect();
+    let w = |i: usize| runs.counts[i] as f64;
+    let n = runs.n() as f64;
+    let m = (0..y.len()).map(|i| w(i) * y[i]).sum::<f64>() / n;
+    let var = (0..y.len()).map(|i| w(i) * (y[i] - m).powi(2)).sum::<f64>() / n;
+    (m, var)
+}
+
+/// Σ count·ln f(value): the log-likelihood of the sample.
+fn loglik(d: &Distribution, runs: &Runs) -> f64 {
+    d.loglik_weighted(&runs.values, &runs.counts)
 }
 
 fn finish(
@@ -134,16 +176,16 @@ fn finish(
     k: usize,
     selectable: bool,
     note: Option<String>,
-    sorted: &[f64],
+    runs: &Runs,
     limits: &Limits,
 ) -> FittedModel {
-    let loglik = distribution.loglik(sorted);
+    let loglik = loglik(&distribution, runs);
     FittedModel {
         name,
         params: params(&distribution),
         loglik,
         aic: 2.0 * k as f64 - 2.0 * loglik,
-        anderson_darling: anderson_darling_fitted(sorted, &distribution),
+        anderson_darling: anderson_darling_fitted_runs(runs, &distribution),
         capability: percentile_capability(&distribution, limits),
         selectable: selectable && loglik.is_finite(),
         note,
@@ -231,40 +273,88 @@ pub fn percentile_capability(d: &Distribution, limits: &Limits) -> PercentileCap
 }
 
 /// A² = −n − (1/n)·Σ(2i − 1)[ln F(x₍ᵢ₎) + ln(1 − F(x₍ₙ₊₁₋ᵢ₎))] with F the fitted model.
-/// Above [`EXACT_AD_N`] values, F is evaluated exactly at that many evenly spaced order
-/// statistics and, in between, interpolated linearly in x on the normal-score scale Φ⁻¹(F),
-/// which is smooth for every family here (the test checks the agreement).
 pub fn anderson_darling_fitted(sorted: &[f64], d: &Distribution) -> f64 {
-    let n = sorted.len();
+    anderson_darling_fitted_runs(&Runs::from_sorted(sorted), d)
+}
+
+/// [`anderson_darling_fitted`] on runs of equal values: a run of c values v at ranks r..r+c
+/// adds ln F(v)·c(2r + c) + ln(1 − F(v))·c(2n − 2r − c). Above [`EXACT_AD_N`] distinct values,
+/// F is evaluated exactly at that many of them (Chebyshev-spaced in rank, so densest in the
+/// tails) and, in between, interpolated on the normal-score scale Φ⁻¹(F) (smooth for every
+/// family here) by the cubic through the knots' scores and slopes f/φ (the test checks the
+/// agreement with the exact sum to 1e-7).
+pub fn anderson_darling_fitted_runs(runs: &Runs, d: &Distribution) -> f64 {
+    let n = runs.n();
+    let m = runs.values.len();
+    let v = &runs.values;
     let tiny = f64::MIN_POSITIVE;
-    // (ln F, ln(1 − F)) at each value, from normal scores.
-    let logs: Vec<(f64, f64)> = if n <= EXACT_AD_N {
-        sorted
-            .iter()
-            .map(|&x| (d.cdf(x).max(tiny).ln(), d.sf(x).max(tiny).ln()))
+    // (lower tail F, upper tail 1 − F) of ascending values, each from one evaluation: the cdf
+    // while it is below ½, then the survival function (the cdf of some families, the gamma's
+    // incomplete gamma function above all, is the costly part).
+    let mut upper_half = false;
+    let mut tails = |x: f64| -> (f64, f64) {
+        if !upper_half {
+            let c = d.cdf(x);
+            if c < 0.5 {
+                return (c, 1.0 - c);
+            }
+            upper_half = true;
+        }
+        let s = d.sf(x);
+        (1.0 - s, s)
+    };
+    // (ln F, ln(1 − F)) at each distinct value, from normal scores.
+    let logs: Vec<(f64, f64)> = if m <= EXACT_AD_N {
+        v.iter()
+            .map(|&x| {
+                let (c, s) = tails(x);
+                (c.max(tiny).ln(), s.max(tiny).ln())
+            })
             .collect()
     } else {
-        let knots: Vec<usize> = (0..EXACT_AD_N)
-            .map(|i| i * (n - 1) / (EXACT_AD_N - 1))
+        // Knots spaced as Chebyshev points in rank: dense in the tails, where A² weighs most
+        // and the scores bend most.
+        let mut knots: Vec<usize> = (0..EXACT_AD_N)
+            .map(|i| {
+                let u = std::f64::consts::PI * i as f64 / (EXACT_AD_N - 1) as f64;
+                ((1.0 - u.cos()) / 2.0 * (m - 1) as f64).round() as usize
+            })
             .collect();
-        let score = |x: f64| {
-            let (c, s) = (d.cdf(x), d.sf(x));
+        knots.dedup();
+        let mut score = |x: f64| {
+            let (c, s) = tails(x);
             if c < 0.5 {
                 normal::quantile(c.max(tiny))
             } else {
                 -normal::quantile(s.max(tiny))
             }
         };
-        let z: Vec<f64> = knots.iter().map(|&k| score(sorted[k])).collect();
-        let mut out = Vec::with_capacity(n);
+        let z: Vec<f64> = knots.iter().map(|&k| score(v[k])).collect();
+        // dz/dx = f(x)/φ(z): with the slopes the interpolation is a cubic (Hermite).
+        let slope: Vec<f64> = knots
+            .iter()
+            .zip(&z)
+            .map(|(&k, &zk)| d.pdf(v[k]) / normal::pdf(zk))
+            .collect();
+        let mut out = Vec::with_capacity(m);
         let mut j = 0;
-        for (i, &x) in sorted.iter().enumerate() {
+        for (i, &x) in v.iter().enumerate() {
             while j + 1 < knots.len() - 1 && knots[j + 1] <= i {
                 j += 1;
             }
-            let (x0, x1) = (sorted[knots[j]], sorted[knots[j + 1]]);
+            let (x0, x1) = (v[knots[j]], v[knots[j + 1]]);
             let zi = if x1 > x0 {
-                z[j] + (z[j + 1] - z[j]) * (x - x0) / (x1 - x0)
+                let (h, t) = (x1 - x0, (x - x0) / (x1 - x0));
+                let (s0, s1) = (slope[j], slope[j + 1]);
+                if s0.is_finite() && s1.is_finite() {
+                    let (t2, t3) = (t * t, t * t * t);
+                    (2.0 * t3 - 3.0 * t2 + 1.0) * z[j]
+                        + (t3 - 2.0 * t2 + t) * h * s0
+                        + (-2.0 * t3 + 3.0 * t2) * z[j + 1]
+                        + (t3 - t2) * h * s1
+                } else {
+                    z[j] + (z[j + 1] - z[j]) * t
+                }
             } else {
                 z[j]
             };
@@ -280,10 +370,15 @@ pub fn anderson_darling_fitted(sorted: &[f64], d: &Distribution) -> f64 {
         }
         out
     };
-    let s: f64 = (0..n)
-        .map(|i| (2 * i + 1) as f64 * (logs[i].0 + logs[n - 1 - i].1))
-        .sum();
-    -(n as f64) - s / n as f64
+    let nf = n as f64;
+    let mut s = 0.0;
+    let mut rank = 0usize;
+    for ((ln_f, ln_sf), &c) in logs.iter().zip(&runs.counts) {
+        let (r, cf) = (rank as f64, c as f64);
+        s += cf * (2.0 * r + cf) * ln_f + cf * (2.0 * nf - 2.0 * r - cf) * ln_sf;
+        rank += c;
+    }
+    -nf - s / nf
 }
 
 /// The model `auto` chooses and why: the lowest AIC among the selectable fits, except that the
@@ -319,14 +414,11 @@ pub fn choose(models: &[FittedModel]) -> Option<(usize, String)> {
     ))
 }
 
-fn mean(x: &[f64]) -> f64 {
-    x.iter().sum::<f64>() / x.len() as f64
-}
-
 /// scipy `norm.fit`: the mean and the n-divisor sd.
-fn normal_ml(x: &[f64]) -> Distribution {
-    let m = mean(x);
-    let var = x.iter().map(|v| (v - m).powi(2)).sum::<f64>() / x.len() as f64;
+fn normal_ml(runs: &Runs) -> Distribution {
+    let n = runs.n() as f64;
+    let m = wsum(runs, |v| v) / n;
+    let var = wsum(runs, |v| (v - m).powi(2)) / n;
     Distribution::Normal {
         mean: m,
         sd: var.sqrt(),
@@ -334,10 +426,8 @@ fn normal_ml(x: &[f64]) -> Distribution {
 }
 
 /// Closed form: the mean and n-divisor sd of ln(x − θ).
-fn lognormal_ml(x: &[f64], threshold: f64) -> Distribution {
-    let y: Vec<f64> = x.iter().map(|v| (v - threshold).ln()).collect();
-    let mu = mean(&y);
-    let var = y.iter().map(|v| (v - mu).powi(2)).sum::<f64>() / y.len() as f64;
+fn lognormal_ml(runs: &Runs, threshold: f64) -> Distribution {
+    let (mu, var) = weighted_mean_var(runs, |v| (v - threshold).ln());
     Distribution::Lognormal {
         threshold,
         mu,
@@ -347,17 +437,26 @@ fn lognormal_ml(x: &[f64], threshold: f64) -> Distribution {
 
 /// The shape k solves Σz^k·ln z / Σz^k − 1/k − mean(ln z) = 0 (increasing in k), then
 /// scale = (mean z^k)^(1/k); z = (x − θ)/max so that the powers stay in range.
-fn weibull_ml(x: &[f64], threshold: f64) -> Option<Distribution> {
-    let top = x.iter().fold(0.0f64, |a, &v| a.max(v - threshold));
-    let lz: Vec<f64> = x.iter().map(|v| ((v - threshold) / top).ln()).collect();
+fn weibull_ml(runs: &Runs, threshold: f64) -> Option<Distribution> {
+    let top = runs
+        .values
+        .iter()
+        .fold(0.0f64, |a, &v| a.max(v - threshold));
+    let lz: Vec<f64> = runs
+        .values
+        .iter()
+        .map(|v| ((v - threshold) / top).ln())
+        .collect();
     if lz.iter().any(|v| !v.is_finite()) {
         return None;
     }
-    let mean_lz = mean(&lz);
+    let w: Vec<f64> = runs.counts.iter().map(|&c| c as f64).collect();
+    let n: f64 = w.iter().sum();
+    let mean_lz = lz.iter().zip(&w).map(|(l, c)| c * l).sum::<f64>() / n;
     let g = |k: f64| {
         let (mut s0, mut s1) = (0.0, 0.0);
-        for &l in &lz {
-            let p = (k * l).exp();
+        for (&l, &c) in lz.iter().zip(&w) {
+            let p = c * (k * l).exp();
             s0 += p;
             s1 += p * l;
         }
@@ -366,8 +465,8 @@ fn weibull_ml(x: &[f64], threshold: f64) -> Option<Distribution> {
     // Newton on g (increasing and concave in k), safeguarded by a bracket.
     let g_and_slope = |k: f64| {
         let (mut s0, mut s1, mut s2) = (0.0, 0.0, 0.0);
-        for &l in &lz {
-            let p = (k * l).exp();
+        for (&l, &c) in lz.iter().zip(&w) {
+            let p = c * (k * l).exp();
             s0 += p;
             s1 += p * l;
             s2 += p * l * l;
@@ -403,7 +502,12 @@ fn weibull_ml(x: &[f64], threshold: f64) -> Option<Distribution> {
         }
         k = next;
     }
-    let mean_pow = lz.iter().map(|l| (k * l).exp()).sum::<f64>() / lz.len() as f64;
+    let mean_pow = lz
+        .iter()
+        .zip(&w)
+        .map(|(l, c)| c * (k * l).exp())
+        .sum::<f64>()
+        / n;
     Some(Distribution::Weibull {
         threshold,
         shape: k,
@@ -413,10 +517,10 @@ fn weibull_ml(x: &[f64], threshold: f64) -> Option<Distribution> {
 
 /// The shape k solves ln k − ψ(k) = ln(mean z) − mean(ln z) (Newton from Minka's start, in
 /// ln k), then scale = mean z / k.
-fn gamma_ml(x: &[f64], threshold: f64) -> Option<Distribution> {
-    let z: Vec<f64> = x.iter().map(|v| v - threshold).collect();
-    let mz = mean(&z);
-    let s = mz.ln() - z.iter().map(|v| v.ln()).sum::<f64>() / z.len() as f64;
+fn gamma_ml(runs: &Runs, threshold: f64) -> Option<Distribution> {
+    let n = runs.n() as f64;
+    let mz = wsum(runs, |v| v - threshold) / n;
+    let s = mz.ln() - wsum(runs, |v| (v - threshold).ln()) / n;
     if !(s > 0.0 && s.is_finite()) {
         return None;
     }
@@ -462,10 +566,10 @@ fn bisect(f: impl Fn(f64) -> f64, lo: f64, hi: f64) -> Option<f64> {
 /// The 3-parameter fit: the threshold θ < min(x) maximising the profile likelihood, searched on
 /// a grid of gaps min − θ from 10⁻⁴ to 10² ranges (log-spaced), then refined by golden section.
 /// Also says whether the best θ lies at the smallest gap (the likelihood's unbounded edge).
-fn threshold_ml(sorted: &[f64], family: &str) -> Option<(Distribution, bool)> {
-    let min = sorted[0];
-    let range = sorted[sorted.len() - 1] - min;
-    let fit = |x: &[f64], gap: f64| -> Option<Distribution> {
+fn threshold_ml(runs: &Runs, family: &str) -> Option<(Distribution, bool)> {
+    let min = runs.values[0];
+    let range = runs.values[runs.values.len() - 1] - min;
+    let fit = |x: &Runs, gap: f64| -> Option<Distribution> {
         let t = min - gap;
         match family {
             "lognormal" => Some(lognormal_ml(x, t)),
@@ -473,11 +577,9 @@ fn threshold_ml(sorted: &[f64], family: &str) -> Option<(Distribution, bool)> {
             _ => gamma_ml(x, t),
         }
     };
-    let sample = search_sample(sorted);
+    let sample = search_sample(runs);
     let profile = |lg: f64| -> f64 {
-        fit(&sample, lg.exp()).map_or(f64::NEG_INFINITY, |d| {
-            sample.iter().map(|&x| d.ln_pdf(x)).sum::<f64>()
-        })
+        fit(&sample, lg.exp()).map_or(f64::NEG_INFINITY, |d| loglik(&d, &sample))
     };
     let (a, b) = ((range * 1e-4).ln(), (range * 1e2).ln());
     let steps = 36;
@@ -492,7 +594,7 @@ fn threshold_ml(sorted: &[f64], family: &str) -> Option<(Distribution, bool)> {
     let edge = best == 0;
     let (lo, hi) = (grid[best.saturating_sub(1)], grid[(best + 1).min(steps)]);
     let lg = golden_max(profile, lo, hi, 1e-6);
-    let d = fit(sorted, lg.exp())?;
+    let d = fit(runs, lg.exp())?;
     Some((d, edge))
 }
 
@@ -500,29 +602,23 @@ fn threshold_ml(sorted: &[f64], family: &str) -> Option<(Distribution, bool)> {
 /// (scipy `boxcox_llf`), by golden section on [−5, 5] after a grid; the mean and n-divisor sd
 /// of the transformed values complete the model. Non-positive data are shifted by
 /// −min + range/100 first (reported).
-fn boxcox_ml(sorted: &[f64]) -> Option<(Distribution, bool)> {
-    let min = sorted[0];
-    let range = sorted[sorted.len() - 1] - min;
+fn boxcox_ml(runs: &Runs) -> Option<(Distribution, bool)> {
+    let min = runs.values[0];
+    let range = runs.values[runs.values.len() - 1] - min;
     let shift = if min > 0.0 { 0.0 } else { -min + range / 100.0 };
-    let sample = search_sample(sorted);
-    let x: Vec<f64> = sample.iter().map(|v| v + shift).collect();
-    let sum_ln: f64 = x.iter().map(|v| v.ln()).sum();
-    let n = x.len() as f64;
+    let sample = search_sample(runs);
+    let n = sample.n() as f64;
+    let sum_ln = wsum(&sample, |v| (v + shift).ln());
     let llf = |lambda: f64| -> f64 {
-        let y: Vec<f64> = x.iter().map(|&v| box_cox(v, lambda)).collect();
-        let m = mean(&y);
-        let var = y.iter().map(|v| (v - m).powi(2)).sum::<f64>() / n;
+        let (_, var) = weighted_mean_var(&sample, |v| box_cox(v + shift, lambda));
         (lambda - 1.0) * sum_ln - n / 2.0 * var.ln()
     };
     let grid: Vec<f64> = (0..=40).map(|i| -5.0 + 0.25 * i as f64).collect();
     let best = (0..grid.len()).max_by(|&i, &j| llf(grid[i]).total_cmp(&llf(grid[j])))?;
     let (lo, hi) = (grid[best.saturating_sub(1)], grid[(best + 1).min(40)]);
     let lambda = golden_max(llf, lo, hi, 1e-9);
-    let x: Vec<f64> = sorted.iter().map(|v| v + shift).collect();
-    let n = x.len() as f64;
-    let y: Vec<f64> = x.iter().map(|&v| box_cox(v, lambda)).collect();
-    let m = mean(&y);
-    let sd = (y.iter().map(|v| (v - m).powi(2)).sum::<f64>() / n).sqrt();
+    let (m, var) = weighted_mean_var(runs, |v| box_cox(v + shift, lambda));
+    let sd = var.sqrt();
     if !(sd > 0.0 && sd.is_finite()) {
         return None;
     }
@@ -563,15 +659,23 @@ fn golden_max(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64, tol: f64) -> f64
 
 /// Values the parameter searches run on: all of them up to [`SEARCH_N`], else that many evenly
 /// spaced order statistics (the final parameters are then fitted to all values).
-fn search_sample(sorted: &[f64]) -> std::borrow::Cow<'_, [f64]> {
-    let n = sorted.len();
+fn search_sample(runs: &Runs) -> std::borrow::Cow<'_, Runs> {
+    let n = runs.n();
     if n <= SEARCH_N {
-        return sorted.into();
+        return std::borrow::Cow::Borrowed(runs);
     }
-    (0..SEARCH_N)
-        .map(|i| sorted[(i * (n - 1)) / (SEARCH_N - 1)])
-        .collect::<Vec<f64>>()
-        .into()
+    // The order statistic of rank i·(n − 1)/(SEARCH_N − 1), walking the runs once.
+    let mut picked = Vec::with_capacity(SEARCH_N);
+    let (mut run, mut end) = (0, runs.counts[0]);
+    for i in 0..SEARCH_N {
+        let rank = i * (n - 1) / (SEARCH_N - 1);
+        while rank >= end {
+            run += 1;
+            end += runs.counts[run];
+        }
+        picked.push(runs.values[run]);
+    }
+    std::borrow::Cow::Owned(Runs::from_sorted(&picked))
 }
 
 /// The canonical name of a family, for matching `--model`.
