@@ -258,7 +258,8 @@ impl SimulationPlan {
             if self.usl.is_some_and(|u| y > u) {
                 t.above += 1;
             }
-            let b = ((y - lo) * per_bin).floor();
+            // The bin by truncation (floor for b ≥ 0) instead of a library floor call.
+            let b = (y - lo) * per_bin;
             if b < 0.0 {
                 t.under += 1;
             } else if b >= HISTOGRAM_BINS as f64 {
