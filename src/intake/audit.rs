@@ -33,6 +33,23 @@ pub struct Issue {
     pub message: String,
 }
 
+impl Issue {
+    /// For people: `feature: message (file:line)`, leaving out what is not known.
+    pub fn describe(&self) -> String {
+        let place = match (&self.file, self.line) {
+            (Some(f), Some(l)) => format!(" ({f}:{l})"),
+            (Some(f), None) => format!(" ({f})"),
+            _ => String::new(),
+        };
+        let feature = self
+            .feature
+            .as_ref()
+            .map(|f| format!("{f}: "))
+            .unwrap_or_default();
+        format!("{feature}{}{place}", self.message)
+    }
+}
+
 #[derive(Debug, Clone, Serialize)]
 pub struct FileAudit {
     pub file: String,

@@ -207,17 +207,7 @@ impl Render for CapabilityReport {
             a.rows_read, a.rows_used, a.rows_rejected, a.values_used, a.unused.len()
         ));
         for w in &a.warnings {
-            let place = match (&w.file, w.line) {
-                (Some(f), Some(l)) => format!(" ({f}:{l})"),
-                (Some(f), None) => format!(" ({f})"),
-                _ => String::new(),
-            };
-            let feat = w
-                .feature
-                .as_ref()
-                .map(|f| format!("{f}: "))
-                .unwrap_or_default();
-            out.push_str(&format!("note: {}{}{place}\n", feat, w.message));
+            out.push_str(&format!("note: {}\n", w.describe()));
         }
         if self.features.iter().any(|f| !f.flags.is_empty()) {
             out.push_str("! marks a Cpk below the minimum, a rejected normality test, a chart that signals (signals/expected by chance; stable: no when more than chance), or a gauge too coarse for the tolerance\n");

@@ -33,6 +33,12 @@ impl Td {
     }
 }
 
+impl From<super::table::Cell> for Td {
+    fn from(c: super::table::Cell) -> Self {
+        Td::flagged(c.text, c.flagged)
+    }
+}
+
 impl From<String> for Td {
     fn from(text: String) -> Self {
         Self { text, class: None }

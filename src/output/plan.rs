@@ -13,6 +13,33 @@ pub struct PlanReport {
     pub safety_factors: Vec<SafetyRow>,
 }
 
+impl PlanReport {
+    /// One contributor at a time: measured σ, the σ that alone would meet the target (marked
+    /// where none would), and the Ppk and centred Cpk that σ means.
+    pub fn contributor_rows(&self) -> Vec<Vec<Cell>> {
+        self.plan
+            .per_contributor
+            .iter()
+            .map(|c| {
+                vec![
+                    c.name.clone().into(),
+                    num(Some(c.measured_sd), 3).into(),
+                    Cell::flagged(
+                        if c.reachable {
+                            num(c.required_sd, 3)
+                        } else {
+                            "not alone".into()
+                        },
+                        !c.reachable,
+                    ),
+                    num(c.required_ppk, 3).into(),
+                    num(c.required_cpk_centred, 3).into(),
+                ]
+            })
+            .collect()
+    }
+}
+
 impl Render for PlanReport {
     fn table(&self, colour: bool) -> String {
         let p = &self.plan;
@@ -29,21 +56,8 @@ impl Render for PlanReport {
             "required Ppk",
             "if centred",
         ]);
-        for c in &p.per_contributor {
-            t.push(vec![
-                c.name.clone().into(),
-                num(Some(c.measured_sd), 3).into(),
-                Cell::flagged(
-                    if c.reachable {
-                        num(c.required_sd, 3)
-                    } else {
-                        "not alone".into()
-                    },
-                    !c.reachable,
-                ),
-                num(c.required_ppk, 3).into(),
-                num(c.required_cpk_centred, 3).into(),
-            ]);
+        for row in self.contributor_rows() {
+            t.push(row);
         }
         out.push_str(&t.render(colour));
         match p.allocation.sd_factor {

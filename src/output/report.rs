@@ -313,77 +313,12 @@ impl Report<'_> {
             "The assembly: the design assumption's normal curve (dashed), the measured parts' normal forecast, and the simulated assemblies (bars), against the requirement limits.",
             h,
         );
-        let mut rows: Vec<Vec<Td>> = vec![
-            vec![
-                "worst case".into(),
-                num(Some((s.worst_case.min + s.worst_case.max) / 2.0), 6).into(),
-                "-".into(),
-                num(Some(s.worst_case.min), 6).into(),
-                num(Some(s.worst_case.max), 6).into(),
-                "-".into(),
-                "-".into(),
-                "-".into(),
-            ],
-            vec![
-                "RSS (assumed)".into(),
-                num(Some(s.rss.mean), 6).into(),
-                num(Some(s.rss.sd), 3).into(),
-                num(Some(s.rss.min), 6).into(),
-                num(Some(s.rss.max), 6).into(),
-                ppm(s.rss.ppm_below).into(),
-                ppm(s.rss.ppm_above).into(),
-                ppm(Some(s.rss.ppm)).into(),
-            ],
-            vec![
-                "measured (normal)".into(),
-                num(Some(s.measured.mean), 6).into(),
-                num(Some(s.measured.sd), 3).into(),
-                num(Some(s.measured.mean - 3.0 * s.measured.sd), 6).into(),
-                num(Some(s.measured.mean + 3.0 * s.measured.sd), 6).into(),
-                ppm(s.measured.ppm_below).into(),
-                ppm(s.measured.ppm_above).into(),
-                Td::flagged(ppm(Some(s.measured.ppm)), s.measured.ppm > s.rss.ppm),
-            ],
-        ];
-        if s.exact_tail.method != "normal_closed_form" {
-            let e = &s.exact_tail;
-            rows.push(vec![
-                "stated shapes (convolution)".into(),
-                "".into(),
-                "".into(),
-                "".into(),
-                "".into(),
-                ppm(e.rates.ppm_below).into(),
-                ppm(e.rates.ppm_above).into(),
-                ppm(Some(e.rates.ppm)).into(),
-            ]);
-        }
-        if let Some(sim) = &s.simulation {
-            rows.push(vec![
-                "simulated".into(),
-                "".into(),
-                "".into(),
-                "".into(),
-                "".into(),
-                ppm(sim.ppm_below).into(),
-                ppm(sim.ppm_above).into(),
-                Td::flagged(ppm(Some(sim.ppm)), sim.ppm > s.rss.ppm),
-            ]);
-        }
-        h.table(
-            "methods",
-            &[
-                "method",
-                "mean",
-                "sd",
-                "min",
-                "max",
-                "ppm below",
-                "ppm above",
-                "ppm total",
-            ],
-            &rows,
-        );
+        let rows: Vec<Vec<Td>> = s
+            .method_rows()
+            .into_iter()
+            .map(|r| r.into_iter().map(Td::from).collect())
+            .collect();
+        h.table("methods", &super::stack::METHOD_COLUMNS, &rows);
         let mut notes = vec!["Measured min and max are the mean ∓ 3 sd.".to_string()];
         if let Some(sim) = &s.simulation {
             let draws: Vec<String> = sim
@@ -522,25 +457,10 @@ impl Report<'_> {
                 ppm(Some(plan.current_ppm))
             ),
         );
-        let rows: Vec<Vec<Td>> = plan
-            .per_contributor
-            .iter()
-            .map(|c| {
-                vec![
-                    c.name.clone().into(),
-                    num(Some(c.measured_sd), 3).into(),
-                    Td::flagged(
-                        if c.reachable {
-                            num(c.required_sd, 3)
-                        } else {
-                            "not alone".into()
-                        },
-                        !c.reachable,
-                    ),
-                    num(c.required_ppk, 3).into(),
-                    num(c.required_cpk_centred, 3).into(),
-                ]
-            })
+        let rows: Vec<Vec<Td>> = p
+            .contributor_rows()
+            .into_iter()
+            .map(|r| r.into_iter().map(Td::from).collect())
             .collect();
         h.table(
             "plan",
@@ -1035,23 +955,7 @@ impl Report<'_> {
         }
         if !a.warnings.is_empty() {
             h.element("h3", None, "Warnings");
-            let items: Vec<String> = a
-                .warnings
-                .iter()
-                .map(|w| {
-                    let place = match (&w.file, w.line) {
-                        (Some(f), Some(l)) => format!(" ({f}:{l})"),
-                        (Some(f), None) => format!(" ({f})"),
-                        _ => String::new(),
-                    };
-                    let feat = w
-                        .feature
-                        .as_ref()
-                        .map(|f| format!("{f}: "))
-                        .unwrap_or_default();
-                    format!("{feat}{}{place}", w.message)
-                })
-                .collect();
+            let items: Vec<String> = a.warnings.iter().map(|w| w.describe()).collect();
             h.list(&items);
         }
         h.raw("</section>\n");

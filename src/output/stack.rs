@@ -85,6 +85,87 @@ impl StackReport {
     }
 }
 
+/// Columns of the table of methods (worst case, RSS, measured, …).
+pub const METHOD_COLUMNS: [&str; 8] = [
+    "method",
+    "mean",
+    "sd",
+    "min",
+    "max",
+    "ppm below",
+    "ppm above",
+    "ppm total",
+];
+
+impl StackReport {
+    /// The table of methods, for the terminal and the HTML report alike: worst case, RSS under
+    /// the assumption, the measured forecast, the stated shapes' exact tail and the simulation
+    /// where there are; a rate above the assumed one is marked.
+    pub fn method_rows(&self) -> Vec<Vec<Cell>> {
+        let wc = &self.worst_case;
+        let s = &self.rss;
+        let m = &self.measured;
+        let mut rows = vec![
+            vec![
+                "worst case".into(),
+                num(Some((wc.min + wc.max) / 2.0), 6).into(),
+                "-".into(),
+                num(Some(wc.min), 6).into(),
+                num(Some(wc.max), 6).into(),
+                "-".into(),
+                "-".into(),
+                "-".into(),
+            ],
+            vec![
+                "RSS (assumed)".into(),
+                num(Some(s.mean), 6).into(),
+                num(Some(s.sd), 3).into(),
+                num(Some(s.min), 6).into(),
+                num(Some(s.max), 6).into(),
+                ppm(s.ppm_below).into(),
+                ppm(s.ppm_above).into(),
+                ppm(Some(s.ppm)).into(),
+            ],
+            vec![
+                "measured".into(),
+                num(Some(m.mean), 6).into(),
+                num(Some(m.sd), 3).into(),
+                num(Some(m.mean - 3.0 * m.sd), 6).into(),
+                num(Some(m.mean + 3.0 * m.sd), 6).into(),
+                ppm(m.ppm_below).into(),
+                ppm(m.ppm_above).into(),
+                Cell::flagged(ppm(Some(m.ppm)), m.ppm > s.ppm),
+            ],
+        ];
+        // Rates without a mean or sd of their own.
+        let rates = |name: &str, below, above, total: f64| -> Vec<Cell> {
+            vec![
+                name.into(),
+                "".into(),
+                "".into(),
+                "".into(),
+                "".into(),
+                ppm(below).into(),
+                ppm(above).into(),
+                Cell::flagged(ppm(Some(total)), total > s.ppm),
+            ]
+        };
+        let e = &self.exact_tail;
+        if e.method != "normal_closed_form" {
+            rows.push(rates(
+                "stated shapes",
+                e.rates.ppm_below,
+                e.rates.ppm_above,
+                e.rates.ppm,
+            ));
+        }
+        if let Some(sim) = &self.simulation {
+            rows.push(rates("simulated", sim.ppm_below, sim.ppm_above, sim.ppm));
+        }
+        rows
+    }
+}
+
 impl Render for StackReport {
     fn table(&self, colour: bool) -> String {
         let r = &self.requirement;
@@ -102,75 +183,11 @@ impl Render for StackReport {
             self.assumptions.cp,
             self.assumptions.safety_factor
         );
-        let mut t = Table::new(&[
-            "method",
-            "mean",
-            "sd",
-            "min",
-            "max",
-            "ppm below",
-            "ppm above",
-            "ppm total",
-        ]);
-        let wc = &self.worst_case;
-        t.push(vec![
-            "worst case".into(),
-            num(Some((wc.min + wc.max) / 2.0), 6).into(),
-            "-".into(),
-            num(Some(wc.min), 6).into(),
-            num(Some(wc.max), 6).into(),
-            "-".into(),
-            "-".into(),
-            "-".into(),
-        ]);
-        let s = &self.rss;
-        t.push(vec![
-            "RSS (assumed)".into(),
-            num(Some(s.mean), 6).into(),
-            num(Some(s.sd), 3).into(),
-            num(Some(s.min), 6).into(),
-            num(Some(s.max), 6).into(),
-            ppm(s.ppm_below).into(),
-            ppm(s.ppm_above).into(),
-            ppm(Some(s.ppm)).into(),
-        ]);
-        let m = &self.measured;
-        let worse = m.ppm > s.ppm;
-        t.push(vec![
-            "measured".into(),
-            num(Some(m.mean), 6).into(),
-            num(Some(m.sd), 3).into(),
-            num(Some(m.mean - 3.0 * m.sd), 6).into(),
-            num(Some(m.mean + 3.0 * m.sd), 6).into(),
-            ppm(m.ppm_below).into(),
-            ppm(m.ppm_above).into(),
-            Cell::flagged(ppm(Some(m.ppm)), worse),
-        ]);
+        let mut t = Table::new(&METHOD_COLUMNS);
+        for row in self.method_rows() {
+            t.push(row);
+        }
         let e = &self.exact_tail;
-        if e.method != "normal_closed_form" {
-            t.push(vec![
-                "stated shapes".into(),
-                "".into(),
-                "".into(),
-                "".into(),
-                "".into(),
-                ppm(e.rates.ppm_below).into(),
-                ppm(e.rates.ppm_above).into(),
-                ppm(Some(e.rates.ppm)).into(),
-            ]);
-        }
-        if let Some(sim) = &self.simulation {
-            t.push(vec![
-                "simulated".into(),
-                "".into(),
-                "".into(),
-                "".into(),
-                "".into(),
-                ppm(sim.ppm_below).into(),
-                ppm(sim.ppm_above).into(),
-                Cell::flagged(ppm(Some(sim.ppm)), sim.ppm > s.ppm),
-            ]);
-        }
         out.push_str(&t.render(colour));
         out.push_str("(measured min/max: mean ∓ 3 sd)\n");
         if e.method != "normal_closed_form" {
