@@ -183,7 +183,8 @@ fn a_report_without_a_stack_has_no_assembly_section() {
         .arg(&out)
         .assert()
         .success()
-        .stdout(predicates::str::contains("\"features\": 6"));
+        .stdout(predicates::str::contains("\"features\": 6"))
+        .stdout(predicates::str::contains("\"inline_charts\": 24"));
     let html = std::fs::read_to_string(&out).unwrap();
     assert!(!html.contains("<section id=\"assembly\">"));
     assert!(html.contains("<section id=\"features\">"));

@@ -109,6 +109,9 @@ pub fn run(args: &ReportArgs) -> anyhow::Result<Outcome> {
 #[derive(Debug, Clone, Serialize)]
 pub struct Written {
     pub report: String,
+    /// Charts drawn into the report.
+    pub inline_charts: usize,
+    /// Chart files written with `--charts` (an SVG and a PNG each).
     pub charts: Vec<String>,
     pub features: usize,
     /// The verdict on the design assumption, when a stack was given.
@@ -119,9 +122,7 @@ impl Render for Written {
     fn table(&self, _colour: bool) -> String {
         let mut out = format!(
             "wrote {} ({} feature result(s), {} chart(s) inline)\n",
-            self.report,
-            self.features,
-            self.charts.len() / 2
+            self.report, self.features, self.inline_charts
         );
         for c in &self.charts {
             out.push_str(&format!("wrote {c}\n"));
@@ -171,6 +172,7 @@ pub fn write_report(
     }
     Ok(Written {
         report: path.display().to_string(),
+        inline_charts: plots.len(),
         charts: written,
         features: report.capability.features.len(),
         supports_assumption: report
