@@ -240,3 +240,56 @@ fn the_demo_writes_the_report_and_its_charts() {
         2 * (2 + 7 * 4)
     );
 }
+
+#[test]
+fn degenerate_features_get_the_charts_their_values_allow() {
+    // One value, two values, all values equal, one-sided specs, subgroups, a forced model: the
+    // report is still written, each feature with the charts its values allow.
+    let mut csv = String::from("part,same,one,two,skewed,lot\n");
+    for i in 0..40 {
+        let one = if i == 0 { "1.5" } else { "" };
+        let two = match i {
+            0 => "2.0",
+            1 => "2.1",
+            _ => "",
+        };
+        let skewed = ((i % 13) as f64 / 3.0).exp();
+        let lot = if i < 20 { "A" } else { "B" };
+        csv.push_str(&format!("P{i},7.000,{one},{two},{skewed:.4},{lot}\n"));
+    }
+    let specs = "feature,nominal,lsl,usl\nsame,7,6.9,7.1\nskewed,,,20\n";
+    let dir = common::dir_with(&[("deg.csv", &csv), ("specs.csv", specs)]);
+    for extra in [
+        &[][..],
+        &["--by", "lot"][..],
+        &["--subgroup-size", "5", "--within", "sd"][..],
+        &["--model", "weibull"][..],
+    ] {
+        let out = dir.path().join("deg.html");
+        let charts = dir.path().join("charts");
+        let _ = std::fs::remove_dir_all(&charts);
+        capstack()
+            .arg("report")
+            .arg(dir.path().join("deg.csv"))
+            .arg("--specs")
+            .arg(dir.path().join("specs.csv"))
+            .args(extra)
+            .arg("-o")
+            .arg(&out)
+            .arg("--charts")
+            .arg(&charts)
+            .assert()
+            .success();
+        let html = std::fs::read_to_string(&out).unwrap();
+        assert!(html.contains("all values are identical"), "{extra:?}");
+        let names: Vec<String> = std::fs::read_dir(&charts)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        let of = |feature: &str| names.iter().filter(|n| n.contains(feature)).count();
+        // A single value: its histogram only (SVG and PNG); two: no probability plot or chart.
+        assert_eq!(of("-one-"), 2, "{extra:?}: {names:?}");
+        assert!(of("-two-") <= 2, "{extra:?}");
+        assert!(of("-skewed-") >= 6, "{extra:?}");
+    }
+}
