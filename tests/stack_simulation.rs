@@ -536,3 +536,68 @@ proptest::proptest! {
         );
     }
 }
+
+/// The block ziggurat's draws against the standard normal cdf (capstack's Φ, itself checked
+/// against scipy's erfc in tests/reference_stats.rs): 4·10⁶ draws in 200 bins of
+/// equal probability by Pearson's chi-square (199 degrees of freedom: mean 199, sd 20), and the
+/// counts where the rare paths decide: beyond the base layer's edge r = 4.0388 of the
+/// 1024-layer ziggurat (the tail method) and in |z| < 0.27 (the top layers, mostly wedge tests).
+#[test]
+fn block_ziggurat_draws_are_standard_normal() {
+    use capstack::stack::normal_draws::NormalDraws;
+    use rand::SeedableRng;
+    let n = 4_000_000;
+    let mut z = vec![0.0; n];
+    let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(20_261_202);
+    let mut draws = NormalDraws::new(&mut rng);
+    for block in z.chunks_mut(8192) {
+        draws.fill(block, 0.0, 1.0, &mut rng);
+    }
+    let bins = 200;
+    let edges: Vec<f64> = (1..bins)
+        .map(|b| normal::quantile(b as f64 / bins as f64))
+        .collect();
+    let mut counts = vec![0u64; bins];
+    for &x in &z {
+        counts[edges.partition_point(|&e| e <= x)] += 1;
+    }
+    let expected = n as f64 / bins as f64;
+    let chi2: f64 = counts
+        .iter()
+        .map(|&c| (c as f64 - expected).powi(2) / expected)
+        .sum();
+    assert!(chi2 < 199.0 + 4.0 * 20.0, "chi-square {chi2}");
+
+    let mean = z.iter().sum::<f64>() / n as f64;
+    let var = z.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / n as f64;
+    assert!(mean.abs() < 4.0 / (n as f64).sqrt(), "mean {mean}");
+    // sd of the sample variance of normals: sqrt(2/n).
+    assert!(
+        (var - 1.0).abs() < 4.0 * (2.0 / n as f64).sqrt(),
+        "variance {var}"
+    );
+
+    let check = |count: usize, p: f64, what: &str| {
+        let e = n as f64 * p;
+        assert!(
+            (count as f64 - e).abs() < 4.0 * e.sqrt(),
+            "{what}: {count} against {e:.0}"
+        );
+    };
+    let r = 4.038_849_846;
+    check(
+        z.iter().filter(|x| x.abs() > r).count(),
+        2.0 * normal::sf(r),
+        "tail",
+    );
+    check(
+        z.iter().filter(|x| x.abs() > 4.5).count(),
+        2.0 * normal::sf(4.5),
+        "beyond 4.5",
+    );
+    check(
+        z.iter().filter(|x| x.abs() < 0.27).count(),
+        normal::cdf(0.27) - normal::cdf(-0.27),
+        "top layer",
+    );
+}

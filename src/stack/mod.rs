@@ -5,6 +5,7 @@
 pub mod analytic;
 pub mod file;
 pub mod model;
+pub mod normal_draws;
 pub mod plan;
 pub mod simulate;
 pub mod tail;
