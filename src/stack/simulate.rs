@@ -257,13 +257,7 @@ impl SimulationPlan {
         // In strips that stay in the L1 cache while every column is added in.
         const STRIP: usize = 512;
         for (s, ys) in assembly.chunks_mut(STRIP).enumerate() {
-            let start = s * STRIP;
-            ys.fill(0.0);
-            for (a, col) in self.sensitivities.iter().zip(draws.iter()) {
-                for (y, x) in ys.iter_mut().zip(&col[start..]) {
-                    *y += a * x;
-                }
-            }
+            add_strip(ys, &self.sensitivities, draws, s * STRIP);
             for &y in ys.iter() {
                 t.below += u64::from(y < lsl);
                 t.above += u64::from(y > usl);
@@ -276,6 +270,30 @@ impl SimulationPlan {
         t.samples = len as u64;
         t
     }
+}
+
+/// ys = Σ a·column[start..], summed in contributor order whatever the vector width.
+fn add_strip(ys: &mut [f64], sensitivities: &[f64], columns: &[Vec<f64>], start: usize) {
+    #[inline(always)]
+    fn add(ys: &mut [f64], sensitivities: &[f64], columns: &[Vec<f64>], start: usize) {
+        ys.fill(0.0);
+        for (a, col) in sensitivities.iter().zip(columns) {
+            for (y, x) in ys.iter_mut().zip(&col[start..]) {
+                *y += a * x;
+            }
+        }
+    }
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    fn add_avx2(ys: &mut [f64], sensitivities: &[f64], columns: &[Vec<f64>], start: usize) {
+        add(ys, sensitivities, columns, start);
+    }
+    #[cfg(target_arch = "x86_64")]
+    if std::is_x86_feature_detected!("avx2") {
+        // SAFETY: the CPU has AVX2, checked above.
+        return unsafe { add_avx2(ys, sensitivities, columns, start) };
+    }
+    add(ys, sensitivities, columns, start);
 }
 
 /// A fitted model ready to draw from: by transforming standard draws, never by a numerical
