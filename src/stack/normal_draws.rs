@@ -12,7 +12,7 @@ use crate::stats::normal;
 use rand::{Rng, RngCore};
 use std::sync::OnceLock;
 
-/// Streams advanced in lock step: one AVX-512 register of u64, two of AVX2.
+/// Streams advanced in lock step: two AVX2 registers of u64.
 const LANES: usize = 8;
 /// Draws made before the rare cases are finished: small enough to stay in L1.
 const BLOCK: usize = 256;
@@ -362,14 +362,24 @@ mod tests {
 
     #[test]
     fn the_vector_and_portable_paths_give_the_same_draws() {
-        // 1000 draws: three whole blocks and a part, so the split at the end is covered too.
-        let mut a = vec![0.0; 1000];
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(7);
-        NormalDraws::new(&mut rng).fill(&mut a, 0.0, 1.0, &mut rng);
-        let mut b = vec![0.0; 1000];
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(7);
-        NormalDraws::new(&mut rng).fill_by(&mut b, 0.0, 1.0, &mut rng, portable_block);
-        assert_eq!(a, b);
-        assert!(a.iter().all(|x| x.is_finite()) && a.windows(2).all(|w| w[0] != w[1]));
+        // 1000 draws, with a mean and sd: three whole blocks and a part, so the split at the
+        // end is covered too.
+        let draws = |first_points: FirstPoints| {
+            let mut x = vec![0.0; 1000];
+            let mut rng = Xoshiro256PlusPlus::seed_from_u64(7);
+            NormalDraws::new(&mut rng).fill_by(&mut x, 0.25, 0.01, &mut rng, first_points);
+            x
+        };
+        let portable = draws(portable_block);
+        assert!(portable.iter().all(|x| x.is_finite()));
+        assert!(portable.windows(2).all(|w| w[0] != w[1]));
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::is_x86_feature_detected!("avx2") {
+                // SAFETY: the CPU has AVX2, checked above.
+                let avx2 = draws(|s, b, x, m, sd| unsafe { avx2::block(s, b, x, m, sd) });
+                assert_eq!(avx2, portable, "AVX2");
+            }
+        }
     }
 }
