@@ -261,7 +261,8 @@ impl SimulationPlan {
             for &y in ys.iter() {
                 t.below += u64::from(y < lsl);
                 t.above += u64::from(y > usl);
-                slots[((y - lo) * per_bin + 1.0).clamp(0.0, last) as usize] += 1;
+                // Through i64: the clamp leaves nothing for the unsigned conversion to saturate.
+                slots[((y - lo) * per_bin + 1.0).clamp(0.0, last) as i64 as usize] += 1;
             }
         }
         t.under = slots[0];
