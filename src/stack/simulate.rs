@@ -479,7 +479,8 @@ pub fn simulate(
         Some(_) => round_to_chunks(settings.samples.min(settings.max_samples)),
         None => settings.samples,
     };
-    let batch = (rayon::current_num_threads() as u64 * 16).max(1);
+    // Chunks between progress reports: enough that waiting for the slowest chunk costs little.
+    let batch = (rayon::current_num_threads() as u64 * 64).max(1);
     loop {
         while tally.samples < planned {
             let first = next_chunk;
