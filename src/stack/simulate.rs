@@ -246,55 +246,119 @@ impl SimulationPlan {
         self.draw_chunk(seed, chunk, len, draws);
         let assembly = &mut assembly[0];
         assembly.resize(len, 0.0);
-        let mut t = Tally::new();
         let (lo, hi) = self.range;
-        let per_bin = HISTOGRAM_BINS as f64 / (hi - lo);
-        let lsl = self.lsl.unwrap_or(f64::NEG_INFINITY);
-        let usl = self.usl.unwrap_or(f64::INFINITY);
-        // Slot 0 counts below the histogram's range, slot BINS + 1 above it; no branches.
-        let mut slots = [0u64; HISTOGRAM_BINS + 2];
-        let last = (HISTOGRAM_BINS + 1) as f64;
+        let counting = Counting {
+            lsl: self.lsl.unwrap_or(f64::NEG_INFINITY),
+            usl: self.usl.unwrap_or(f64::INFINITY),
+            lo,
+            per_bin: HISTOGRAM_BINS as f64 / (hi - lo),
+        };
+        let mut counts = StripCounts::default();
         // In strips that stay in the L1 cache while every column is added in.
         const STRIP: usize = 512;
         for (s, ys) in assembly.chunks_mut(STRIP).enumerate() {
-            add_strip(ys, &self.sensitivities, draws, s * STRIP);
-            for &y in ys.iter() {
-                t.below += u64::from(y < lsl);
-                t.above += u64::from(y > usl);
-                // Through i64: the clamp leaves nothing for the unsigned conversion to saturate.
-                slots[((y - lo) * per_bin + 1.0).clamp(0.0, last) as i64 as usize] += 1;
-            }
+            strip(
+                ys,
+                &self.sensitivities,
+                draws,
+                s * STRIP,
+                &counting,
+                &mut counts,
+            );
         }
-        t.under = slots[0];
-        t.over = slots[HISTOGRAM_BINS + 1];
-        t.bins.copy_from_slice(&slots[1..=HISTOGRAM_BINS]);
+        let mut t = Tally::new();
+        let slot = |b: usize| counts.slots.iter().map(|h| h[b]).sum::<u64>();
+        t.below = counts.below;
+        t.above = counts.above;
+        t.under = slot(0);
+        t.over = slot(HISTOGRAM_BINS + 1);
+        for (b, n) in t.bins.iter_mut().enumerate() {
+            *n = slot(b + 1);
+        }
         t.samples = len as u64;
         t
     }
 }
 
-/// ys = Σ a·column[start..], summed in contributor order whatever the vector width.
-fn add_strip(ys: &mut [f64], sensitivities: &[f64], columns: &[Vec<f64>], start: usize) {
+/// What is counted of each assembly value: outside each limit, and its histogram bin.
+struct Counting {
+    lsl: f64,
+    usl: f64,
+    lo: f64,
+    per_bin: f64,
+}
+
+/// Counts over strips. Slot 0 is below the histogram's range, slot BINS + 1 above it; four
+/// histograms taken in turn, so that equal bins in a row do not wait on each other.
+struct StripCounts {
+    below: u64,
+    above: u64,
+    slots: [[u64; HISTOGRAM_BINS + 2]; 4],
+}
+
+impl Default for StripCounts {
+    fn default() -> Self {
+        Self {
+            below: 0,
+            above: 0,
+            slots: [[0; HISTOGRAM_BINS + 2]; 4],
+        }
+    }
+}
+
+/// ys = Σ a·column[start..] (summed in contributor order whatever the vector width), counted.
+fn strip(
+    ys: &mut [f64],
+    sensitivities: &[f64],
+    columns: &[Vec<f64>],
+    start: usize,
+    c: &Counting,
+    counts: &mut StripCounts,
+) {
     #[inline(always)]
-    fn add(ys: &mut [f64], sensitivities: &[f64], columns: &[Vec<f64>], start: usize) {
+    fn add_and_count(
+        ys: &mut [f64],
+        sensitivities: &[f64],
+        columns: &[Vec<f64>],
+        start: usize,
+        c: &Counting,
+        counts: &mut StripCounts,
+    ) {
         ys.fill(0.0);
         for (a, col) in sensitivities.iter().zip(columns) {
             for (y, x) in ys.iter_mut().zip(&col[start..]) {
                 *y += a * x;
             }
         }
+        counts.below += ys.iter().map(|&y| u64::from(y < c.lsl)).sum::<u64>();
+        counts.above += ys.iter().map(|&y| u64::from(y > c.usl)).sum::<u64>();
+        let last = (HISTOGRAM_BINS + 1) as f64;
+        let mut bins = [0u32; 512];
+        for (b, &y) in bins.iter_mut().zip(ys.iter()) {
+            *b = ((y - c.lo) * c.per_bin + 1.0).clamp(0.0, last) as u32;
+        }
+        for (k, &b) in bins[..ys.len()].iter().enumerate() {
+            counts.slots[k % 4][(b as usize).min(HISTOGRAM_BINS + 1)] += 1;
+        }
     }
     #[cfg(target_arch = "x86_64")]
     #[target_feature(enable = "avx2")]
-    fn add_avx2(ys: &mut [f64], sensitivities: &[f64], columns: &[Vec<f64>], start: usize) {
-        add(ys, sensitivities, columns, start);
+    fn add_and_count_avx2(
+        ys: &mut [f64],
+        sensitivities: &[f64],
+        columns: &[Vec<f64>],
+        start: usize,
+        c: &Counting,
+        counts: &mut StripCounts,
+    ) {
+        add_and_count(ys, sensitivities, columns, start, c, counts);
     }
     #[cfg(target_arch = "x86_64")]
     if std::is_x86_feature_detected!("avx2") {
         // SAFETY: the CPU has AVX2, checked above.
-        return unsafe { add_avx2(ys, sensitivities, columns, start) };
+        return unsafe { add_and_count_avx2(ys, sensitivities, columns, start, c, counts) };
     }
-    add(ys, sensitivities, columns, start);
+    add_and_count(ys, sensitivities, columns, start, c, counts);
 }
 
 /// A fitted model ready to draw from: by transforming standard draws, never by a numerical
