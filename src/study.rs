@@ -23,6 +23,10 @@ pub struct StudySettings {
     pub model: ModelRequest,
     /// The Nelson tests to apply (1–8).
     pub rules: Vec<u8>,
+    /// Keep each result's values and chart points for drawing (the report). Without it they
+    /// are freed as soon as the statistics are done (the values stay under `--by`, whose
+    /// comparisons use them), so a large file's study holds little beyond its results.
+    pub keep_points: bool,
 }
 
 /// Which distribution model gives the percentile indices.
@@ -46,6 +50,7 @@ impl Default for StudySettings {
             alpha: DEFAULT_ALPHA,
             model: ModelRequest::Auto,
             rules: control::DEFAULT_RULES.to_vec(),
+            keep_points: true,
         }
     }
 }
@@ -291,8 +296,18 @@ pub fn study(
                     data.part_ids.get(r).map(str::to_string),
                 )
             };
-            let stability =
+            let mut stability =
                 chart.map(|chart| build_stability(chart, &settings.rules, individual, &locate));
+            if !settings.keep_points {
+                if let Some(s) = stability.as_mut() {
+                    s.chart.free_points();
+                }
+            }
+            let values = if settings.keep_points || settings.by.is_some() {
+                values
+            } else {
+                Vec::new()
+            };
             if stability.as_ref().is_some_and(|s| !s.stable) {
                 flags.push("unstable".to_string());
             }

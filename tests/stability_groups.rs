@@ -200,3 +200,46 @@ fn a_moving_range_signal_is_placed_at_its_later_value_on_a_normal_scores_chart_t
         assert_eq!(first.point, 20, "{kind}");
     }
 }
+
+/// `keep_points: false` (how `capstack capability` studies) frees each feature's values and
+/// chart points and changes no statistic: the serialised results are the same text. On the
+/// sample scenario's drifting supplier, whose charts signal.
+#[test]
+fn freeing_the_points_changes_no_statistic() {
+    use capstack::intake::{read_files, read_spec_sheets, ReadOptions};
+    use capstack::study::{study, StudySettings};
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("sample_data");
+    let path = |f: &str| root.join(f).display().to_string();
+    let data = read_files(
+        &[path("talvik_hubs.csv")],
+        &ReadOptions::default(),
+        &Default::default(),
+    )
+    .unwrap();
+    let specs = read_spec_sheets(&[path("talvik_specs.csv")]).unwrap();
+    let kept = study(&data, &specs, &StudySettings::default()).unwrap();
+    let freed = study(
+        &data,
+        &specs,
+        &StudySettings {
+            keep_points: false,
+            ..StudySettings::default()
+        },
+    )
+    .unwrap();
+    assert!(kept.iter().all(|f| !f.values.is_empty()));
+    assert!(freed.iter().all(|f| f.values.is_empty()));
+    assert!(freed.iter().filter_map(|f| f.stability.as_ref()).all(|s| s
+        .chart
+        .location_points
+        .is_empty()
+        && s.chart.dispersion_points.is_empty()));
+    assert!(kept
+        .iter()
+        .filter_map(|f| f.stability.as_ref())
+        .any(|s| s.signal_count > 0));
+    assert_eq!(
+        serde_json::to_string(&kept).unwrap(),
+        serde_json::to_string(&freed).unwrap()
+    );
+}

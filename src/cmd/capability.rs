@@ -11,7 +11,11 @@ use crate::stats::within::WithinMethod;
 use crate::study::{study, ModelRequest, StudySettings, Subgrouping};
 
 pub fn run(args: &CapabilityArgs) -> anyhow::Result<Outcome> {
-    let settings = settings(&args.study)?;
+    let settings = StudySettings {
+        // Nothing is drawn here.
+        keep_points: false,
+        ..settings(&args.study)?
+    };
     let mut sink = Sink::open(args.out.output.as_deref())?;
     let (data, specs) = super::load(&args.data)?;
     let features = study(&data, &specs, &settings)?;
@@ -74,6 +78,7 @@ pub fn settings(args: &StudyArgs) -> Result<StudySettings, InputError> {
         alpha: args.alpha,
         model: model_request(&args.model)?,
         rules: parse_rules(&args.rules)?,
+        keep_points: true,
     })
 }
 

@@ -31,6 +31,10 @@ const RANGE: f64 = 12.0;
 /// d2(m) = ∫ [1 − (1 − Φ(x))ᵐ − Φ(x)ᵐ] dx (Tippett 1925). Checked against the published table
 /// (ASTM MNL-7, "Factors for constructing control charts"), d2(2) = 2/√π exactly.
 pub fn d2(m: usize) -> f64 {
+    // Individuals charts (m = 2) are the common case: their constants in closed form.
+    if m == 2 {
+        return 2.0 / std::f64::consts::PI.sqrt();
+    }
     cached(&D2, m, d2_integral)
 }
 
@@ -56,6 +60,9 @@ fn d2_integral(m: usize) -> f64 {
 /// d3² = E[R²] − d2², E[R²] = 2∬_{x<y} [1 − Φ(y)ᵐ − (1 − Φ(x))ᵐ + (Φ(y) − Φ(x))ᵐ] dx dy.
 /// d3(2) = √(2 − 4/π) exactly.
 pub fn d3(m: usize) -> f64 {
+    if m == 2 {
+        return (2.0 - 4.0 / std::f64::consts::PI).sqrt();
+    }
     cached(&D3, m, d3_integral)
 }
 
@@ -115,5 +122,18 @@ pub fn chart_factors(m: usize) -> ChartFactors {
         d4_upper: 1.0 + 3.0 * d3 / d2,
         b3: (1.0 - s).max(0.0),
         b4: 1.0 + s,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The closed forms for m = 2 that `d2` and `d3` return (the range of two normals is
+    /// |N(0, 2)|: mean 2/√π, variance 2 − 4/π) against the integrals used for other m.
+    #[test]
+    fn the_integrals_give_the_closed_forms_at_two() {
+        assert!((d2_integral(2) - d2(2)).abs() < 1e-12, "{}", d2_integral(2));
+        assert!((d3_integral(2) - d3(2)).abs() < 1e-9, "{}", d3_integral(2));
     }
 }

@@ -93,6 +93,15 @@ pub struct Chart {
 }
 
 impl Chart {
+    /// Frees the per-point vectors once the tests have run and nothing will draw the chart.
+    pub fn free_points(&mut self) {
+        self.location_points = Vec::new();
+        self.location_sigma = Vec::new();
+        self.dispersion_points = Vec::new();
+        self.dispersion_ucl = Vec::new();
+        self.scores = None;
+    }
+
     /// σ of location point `i`.
     pub fn sigma_at(&self, i: usize) -> f64 {
         match self.location_sigma.as_slice() {
