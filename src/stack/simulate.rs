@@ -248,23 +248,15 @@ impl SimulationPlan {
         assembly.resize(len, 0.0);
         let (lo, hi) = self.range;
         let counting = Counting {
+            sensitivities: &self.sensitivities,
             lsl: self.lsl.unwrap_or(f64::NEG_INFINITY),
             usl: self.usl.unwrap_or(f64::INFINITY),
             lo,
             per_bin: HISTOGRAM_BINS as f64 / (hi - lo),
         };
         let mut counts = StripCounts::default();
-        // In strips that stay in the L1 cache while every column is added in.
-        const STRIP: usize = 512;
         for (s, ys) in assembly.chunks_mut(STRIP).enumerate() {
-            strip(
-                ys,
-                &self.sensitivities,
-                draws,
-                s * STRIP,
-                &counting,
-                &mut counts,
-            );
+            counting.strip(ys, draws, s * STRIP, &mut counts);
         }
         let mut t = Tally::new();
         let slot = |b: usize| counts.slots.iter().map(|h| h[b]).sum::<u64>();
@@ -280,8 +272,14 @@ impl SimulationPlan {
     }
 }
 
-/// What is counted of each assembly value: outside each limit, and its histogram bin.
-struct Counting {
+/// Assembly values made and counted at a time: a strip that stays in the L1 cache while every
+/// contributor's column is added in.
+const STRIP: usize = 512;
+
+/// How each assembly value is made (Σ a·x) and what is counted of it: outside each limit, and
+/// its histogram bin.
+struct Counting<'a> {
+    sensitivities: &'a [f64],
     lsl: f64,
     usl: f64,
     lo: f64,
@@ -306,59 +304,48 @@ impl Default for StripCounts {
     }
 }
 
-/// ys = Σ a·column[start..] (summed in contributor order whatever the vector width), counted.
-fn strip(
-    ys: &mut [f64],
-    sensitivities: &[f64],
-    columns: &[Vec<f64>],
-    start: usize,
-    c: &Counting,
-    counts: &mut StripCounts,
-) {
+impl Counting<'_> {
+    /// ys = Σ a·column[start..] (in contributor order whatever the vector width), counted.
+    fn strip(&self, ys: &mut [f64], columns: &[Vec<f64>], start: usize, counts: &mut StripCounts) {
+        #[cfg(target_arch = "x86_64")]
+        if std::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU has AVX2, checked above.
+            return unsafe { self.strip_avx2(ys, columns, start, counts) };
+        }
+        self.add_and_count(ys, columns, start, counts);
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    fn strip_avx2(&self, ys: &mut [f64], columns: &[Vec<f64>], start: usize, c: &mut StripCounts) {
+        self.add_and_count(ys, columns, start, c);
+    }
+
     #[inline(always)]
     fn add_and_count(
+        &self,
         ys: &mut [f64],
-        sensitivities: &[f64],
         columns: &[Vec<f64>],
         start: usize,
-        c: &Counting,
         counts: &mut StripCounts,
     ) {
         ys.fill(0.0);
-        for (a, col) in sensitivities.iter().zip(columns) {
+        for (a, col) in self.sensitivities.iter().zip(columns) {
             for (y, x) in ys.iter_mut().zip(&col[start..]) {
                 *y += a * x;
             }
         }
-        counts.below += ys.iter().map(|&y| u64::from(y < c.lsl)).sum::<u64>();
-        counts.above += ys.iter().map(|&y| u64::from(y > c.usl)).sum::<u64>();
+        counts.below += ys.iter().map(|&y| u64::from(y < self.lsl)).sum::<u64>();
+        counts.above += ys.iter().map(|&y| u64::from(y > self.usl)).sum::<u64>();
         let last = (HISTOGRAM_BINS + 1) as f64;
-        let mut bins = [0u32; 512];
+        let mut bins = [0u32; STRIP];
         for (b, &y) in bins.iter_mut().zip(ys.iter()) {
-            *b = ((y - c.lo) * c.per_bin + 1.0).clamp(0.0, last) as u32;
+            *b = ((y - self.lo) * self.per_bin + 1.0).clamp(0.0, last) as u32;
         }
         for (k, &b) in bins[..ys.len()].iter().enumerate() {
             counts.slots[k % 4][(b as usize).min(HISTOGRAM_BINS + 1)] += 1;
         }
     }
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    fn add_and_count_avx2(
-        ys: &mut [f64],
-        sensitivities: &[f64],
-        columns: &[Vec<f64>],
-        start: usize,
-        c: &Counting,
-        counts: &mut StripCounts,
-    ) {
-        add_and_count(ys, sensitivities, columns, start, c, counts);
-    }
-    #[cfg(target_arch = "x86_64")]
-    if std::is_x86_feature_detected!("avx2") {
-        // SAFETY: the CPU has AVX2, checked above.
-        return unsafe { add_and_count_avx2(ys, sensitivities, columns, start, c, counts) };
-    }
-    add_and_count(ys, sensitivities, columns, start, c, counts);
 }
 
 /// A fitted model ready to draw from: by transforming standard draws, never by a numerical
