@@ -540,8 +540,9 @@ proptest::proptest! {
 /// The block ziggurat's draws against the standard normal cdf (capstack's Φ, itself checked
 /// against scipy's erfc in tests/reference_stats.rs): 4·10⁶ draws in 200 bins of
 /// equal probability by Pearson's chi-square (199 degrees of freedom: mean 199, sd 20), and the
-/// counts where the rare paths decide: beyond the base layer's edge r = 4.2164 of the
-/// 2048-layer ziggurat (the tail method) and in |z| < 0.27 (the top layers, mostly wedge tests).
+/// counts where the rare paths decide: beyond the base layer's edge r (the tail method) and
+/// inside the top layer (always the wedge test), both read from the ziggurat's own table. The
+/// bounds are ±4 standard errors (common practice, no source).
 #[test]
 fn block_ziggurat_draws_are_standard_normal() {
     use capstack::stack::normal_draws::NormalDraws;
@@ -584,7 +585,8 @@ fn block_ziggurat_draws_are_standard_normal() {
             "{what}: {count} against {e:.0}"
         );
     };
-    let r = 4.216_370_41;
+    let edges = capstack::stack::normal_draws::layer_edges();
+    let (r, top) = (edges[1], edges[edges.len() - 2]);
     check(
         z.iter().filter(|x| x.abs() > r).count(),
         2.0 * normal::sf(r),
@@ -596,8 +598,72 @@ fn block_ziggurat_draws_are_standard_normal() {
         "beyond 4.5",
     );
     check(
-        z.iter().filter(|x| x.abs() < 0.27).count(),
-        normal::cdf(0.27) - normal::cdf(-0.27),
+        z.iter().filter(|x| x.abs() < top).count(),
+        normal::cdf(top) - normal::cdf(-top),
         "top layer",
     );
+}
+
+/// Through the binary: `simulate = "fitted"` and `simulate = "normal"` in the stack file change
+/// how those contributors are drawn (and say so), and `--precision` keeps sampling until the
+/// Wilson interval's half-width is within the target of the estimate, reporting it.
+#[test]
+fn the_stack_file_sets_the_draw_and_precision_sets_the_sample_count() {
+    let (dir, toml) = demo_stack_file();
+    let text = std::fs::read_to_string(&toml).unwrap();
+    let set = |text: String, name: &str, how: &str| {
+        let at = text.find(&format!("name = \"{name}\"")).unwrap();
+        let mut t = text.clone();
+        t.insert_str(at, &format!("simulate = \"{how}\"\n"));
+        t
+    };
+    let text = set(set(text, "spacer", "fitted"), "gear hub", "normal");
+    let edited = dir.path().join("edited.toml");
+    std::fs::write(&edited, text).unwrap();
+    let out = Command::cargo_bin("capstack")
+        .unwrap()
+        .args(["stack", edited.to_str().unwrap(), "--format", "json"])
+        .args([
+            "--samples",
+            "100000",
+            "--precision",
+            "20%",
+            "--replicates",
+            "0",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    let sim = &v["simulation"];
+    let draw = |name: &str| {
+        sim["draws"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|d| d["name"] == name)
+            .unwrap()["draw"]
+            .as_str()
+            .unwrap()
+            .to_string()
+    };
+    assert!(draw("spacer").starts_with("fitted"), "{}", draw("spacer"));
+    assert_eq!(draw("gear hub"), "normal");
+    assert_eq!(draw("housing depth"), "parts");
+    let p = &sim["precision"];
+    assert_eq!(p["target"], 0.2);
+    assert_eq!(p["reached"], true);
+    // Reached: the half-width of the interval is within 20 % of the estimate.
+    let (ppm, lo, hi) = (
+        sim["ppm"].as_f64().unwrap(),
+        sim["ppm_low"].as_f64().unwrap(),
+        sim["ppm_high"].as_f64().unwrap(),
+    );
+    assert!((hi - lo) / 2.0 <= 0.2 * ppm, "{lo}-{hi} around {ppm}");
+    assert!(sim["samples"].as_u64().unwrap() >= 100_000);
 }

@@ -2,12 +2,14 @@
 //!
 //! The ziggurat of Marsaglia & Tsang (2000, "The ziggurat method for generating random
 //! variables", J. Statistical Software 5(8)), with 2048 layers instead of their 256 so that only
-//! about 0.2 % of draws leave the fast path (more layers than that crowd the L1 cache). Eight xoshiro256++ streams advance in lock step so
-//! the fast path (a point inside a layer's rectangle) compiles to vector code; the rest (a wedge
+//! about 0.2 % of draws leave the fast path (the sum over layers of 1 − x[i+1]/x[i], over
+//! 2048; more layers than that crowd the L1 cache). Eight xoshiro256++ streams advance in lock
+//! step so the fast path (a point inside a layer's rectangle) compiles to vector code; the rest (a wedge
 //! test or the tail) is finished one draw at a time from the caller's stream. Every integer and
 //! floating-point operation is the same whatever the vector width, so a seed gives the same
 //! draws on any machine.
 
+use super::simulate::{splitmix, SPLITMIX_STEP};
 use crate::stats::normal;
 use rand::{Rng, RngCore};
 use std::sync::OnceLock;
@@ -80,6 +82,12 @@ fn tables() -> &'static Tables {
     TABLES.get_or_init(|| Tables::new(LAYERS))
 }
 
+/// The layer edges in use, x[0..=LAYERS]: x[1] is the base edge r (beyond it, the tail
+/// method), x[LAYERS − 1] the top layer's half-width (inside it, always the wedge test).
+pub fn layer_edges() -> &'static [f64] {
+    &tables().x
+}
+
 /// The lock-step streams, seeded from the caller's stream.
 pub struct NormalDraws {
     /// `s[w][l]`: state word w of lane l.
@@ -99,14 +107,11 @@ impl NormalDraws {
     pub fn new(rng: &mut impl RngCore) -> Self {
         let mut s = [[0u64; LANES]; 4];
         for lane in 0..LANES {
-            // splitmix64 from one word of the caller's stream: never an all-zero state.
+            // SplitMix64 from one word of the caller's stream: never an all-zero state.
             let mut z = rng.next_u64();
             for word in &mut s {
-                z = z.wrapping_add(0x9E37_79B9_7F4A_7C15);
-                let mut m = z;
-                m = (m ^ (m >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-                m = (m ^ (m >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-                word[lane] = m ^ (m >> 31);
+                word[lane] = splitmix(z);
+                z = z.wrapping_add(SPLITMIX_STEP);
             }
         }
         Self { s }

@@ -425,12 +425,16 @@ fn chunk_rng(seed: u64, chunk: u64) -> Xoshiro256PlusPlus {
     Xoshiro256PlusPlus::seed_from_u64(splitmix(splitmix(seed) ^ chunk))
 }
 
-fn splitmix(x: u64) -> u64 {
-    let mut z = x.wrapping_add(0x9E37_79B9_7F4A_7C15);
+/// SplitMix64 (Steele, Lea & Flood, 2014): one step from state x, the output.
+pub(super) fn splitmix(x: u64) -> u64 {
+    let mut z = x.wrapping_add(SPLITMIX_STEP);
     z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
     z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
     z ^ (z >> 31)
 }
+
+/// SplitMix64's state increment (the golden ratio in 64 bits).
+pub(super) const SPLITMIX_STEP: u64 = 0x9E37_79B9_7F4A_7C15;
 
 #[derive(Debug, Clone, PartialEq)]
 struct Tally {
