@@ -291,21 +291,12 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
     out
 }
 
-/// −1, 0 or 1 without branches (the signs of a stable process's points are a coin toss,
-/// which a branch predictor cannot learn).
-fn sign(v: f64) -> i8 {
-    i8::from(v > 0.0) - i8::from(v < 0.0)
-}
-
-/// A run's length after one more point: extended, or restarted at 1 (0 when the point cannot
-/// start one, e.g. on the centre line).
-fn run_after(run: usize, extends: bool, starts: bool) -> usize {
-    // Arithmetic rather than a branch, for the same reason as `sign`.
-    let extends = usize::from(extends);
-    extends * (run + 1) + (1 - extends) * usize::from(starts)
-}
-
 /// The Nelson tests on standardised points: (point, rule) for every signal, by point then rule.
+///
+/// The points are read 64 at a time into bit masks (above, below, rising, falling, beyond a
+/// zone), and each test is a few shifts and ANDs of them: "k in a row" is a mask ANDed with
+/// itself shifted by 1 … k − 1, the previous word supplying the bits shifted in. No branch
+/// depends on the data, which a stable process makes a coin toss.
 pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
     let mut on = [false; 9];
     for &r in rules {
@@ -313,63 +304,298 @@ pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
             *slot = true;
         }
     }
+    let zones = on[5] || on[6] || on[7] || on[8];
     let mut out = Vec::new();
-    let (mut side_run, mut side) = (0usize, 0i8);
-    let (mut trend_run, mut trend) = (0usize, 0i8);
-    let (mut alt_run, mut last_step) = (0usize, 0i8);
-    let (mut within_run, mut beyond_run) = (0usize, 0usize);
-    for i in 0..z.len() {
-        let v = z[i];
-        let s = sign(v);
-        side_run = run_after(side_run, s != 0 && s == side, s != 0);
-        side = s;
-        if i > 0 {
-            let step = sign(z[i] - z[i - 1]);
-            trend_run = run_after(trend_run, step != 0 && step == trend, step != 0);
-            trend = step;
-            alt_run = run_after(alt_run, step != 0 && step == -last_step, step != 0);
-            last_step = step;
+    let mut prev = Masks::default();
+    for (w, chunk) in z.chunks(64).enumerate() {
+        let first = w * 64;
+        let before = first.checked_sub(1).map(|i| z[i]);
+        let m = Masks::of(chunk, before, zones);
+        // Bits of points too early for a window of k points (the first word only).
+        let early = |k: u32| if w == 0 { (1u64 << (k - 1)) - 1 } else { 0 };
+        let mut found = [0u64; 9];
+        found[1] = m.beyond[2];
+        found[2] = in_a_row(m.above, prev.above, 9) | in_a_row(m.below, prev.below, 9);
+        found[3] = in_a_row(m.rising, prev.rising, 5) | in_a_row(m.falling, prev.falling, 5);
+        let alternates = (m.rising & shifted_in(m.falling, prev.falling, 1))
+            | (m.falling & shifted_in(m.rising, prev.rising, 1));
+        let prev_alternates = (prev.rising & prev.falling << 1) | (prev.falling & prev.rising << 1);
+        found[4] = in_a_row(alternates, prev_alternates, 12);
+        found[5] = (two_of_three(m.beyond_up[1], prev.beyond_up[1])
+            | two_of_three(m.beyond_down[1], prev.beyond_down[1]))
+            & !early(3);
+        found[6] = (four_of_five(m.beyond_up[0], prev.beyond_up[0])
+            | four_of_five(m.beyond_down[0], prev.beyond_down[0]))
+            & !early(5);
+        found[7] = in_a_row(m.within1, prev.within1, 15);
+        found[8] = in_a_row(m.beyond[0], prev.beyond[0], 8);
+        let mut any = 0;
+        for rule in 1..=8 {
+            found[rule] &= if on[rule] { u64::MAX } else { 0 };
+            any |= found[rule];
         }
-        if on[7] || on[8] {
-            within_run = usize::from(v.abs() < 1.0) * (within_run + 1);
-            beyond_run = usize::from(v.abs() > 1.0) * (beyond_run + 1);
-        }
-        // The current point is beyond `limit` on its side, with enough company in the window.
-        let beyond_on_side = |k: usize, limit: f64| -> bool {
-            let sign = v.signum();
-            if v.abs() <= limit || i + 1 < k {
-                return false;
+        while any != 0 {
+            let bit = any.trailing_zeros();
+            any &= any - 1;
+            for (rule, mask) in found.iter().enumerate().skip(1) {
+                if mask >> bit & 1 == 1 {
+                    out.push((first + bit as usize, rule as u8));
+                }
             }
-            z[i + 1 - k..=i]
-                .iter()
-                .filter(|&&w| w.signum() == sign && w.abs() > limit)
-                .count()
-                >= k - 1
-        };
-        if on[1] && v.abs() > 3.0 {
-            out.push((i, 1));
         }
-        if on[2] && side_run >= 9 {
-            out.push((i, 2));
-        }
-        if on[3] && trend_run >= 5 {
-            out.push((i, 3));
-        }
-        if on[4] && alt_run >= 13 {
-            out.push((i, 4));
-        }
-        if on[5] && beyond_on_side(3, 2.0) {
-            out.push((i, 5));
-        }
-        if on[6] && beyond_on_side(5, 1.0) {
-            out.push((i, 6));
-        }
-        if on[7] && within_run >= 15 {
-            out.push((i, 7));
-        }
-        if on[8] && beyond_run >= 8 {
-            out.push((i, 8));
-        }
+        prev = m;
     }
     out
+}
+
+/// One word of points as bit masks, bit j for point j of the word.
+#[derive(Default, Clone, Copy)]
+struct Masks {
+    above: u64,
+    below: u64,
+    /// Higher (lower) than the point before; the very first point is neither.
+    rising: u64,
+    falling: u64,
+    /// |z| beyond 1, 2, 3.
+    beyond: [u64; 3],
+    /// z beyond +1, +2 (below −1, −2).
+    beyond_up: [u64; 2],
+    beyond_down: [u64; 2],
+    within1: u64,
+}
+
+impl Masks {
+    /// The masks of up to 64 points, `before` being the point before them; the zone masks
+    /// (tests 5–8) only when `zones`.
+    fn of(chunk: &[f64], before: Option<f64>, zones: bool) -> Self {
+        #[cfg(target_arch = "x86_64")]
+        if let Ok(word) = <&[f64; 64]>::try_from(chunk) {
+            return Self::of_word_sse2(word, before, zones);
+        }
+        Self::of_points(chunk, before, zones)
+    }
+
+    /// Point by point: any length, any processor.
+    fn of_points(chunk: &[f64], before: Option<f64>, zones: bool) -> Self {
+        let mut m = Masks::default();
+        let mut last = before;
+        for (j, &v) in chunk.iter().enumerate() {
+            let bit = |c: bool| u64::from(c) << j;
+            m.above |= bit(v > 0.0);
+            m.below |= bit(v < 0.0);
+            if let Some(p) = last {
+                let step = v - p;
+                m.rising |= bit(step > 0.0);
+                m.falling |= bit(step < 0.0);
+            }
+            last = Some(v);
+            let a = v.abs();
+            m.beyond[2] |= bit(a > 3.0);
+            if zones {
+                m.beyond[0] |= bit(a > 1.0);
+                m.beyond[1] |= bit(a > 2.0);
+                m.beyond_up[0] |= bit(v > 1.0);
+                m.beyond_up[1] |= bit(v > 2.0);
+                m.beyond_down[0] |= bit(v < -1.0);
+                m.beyond_down[1] |= bit(v < -2.0);
+                m.within1 |= bit(a < 1.0);
+            }
+        }
+        m
+    }
+
+    /// A whole word, two points per comparison: each comparison's sign bits are its mask
+    /// bits (SSE2, which every x86-64 processor has).
+    #[cfg(target_arch = "x86_64")]
+    fn of_word_sse2(word: &[f64; 64], before: Option<f64>, zones: bool) -> Self {
+        use std::arch::x86_64::*;
+        let mut m = Masks::default();
+        // SAFETY: SSE2 is part of the x86-64 baseline, so its instructions always exist; the
+        // intrinsics touch no memory.
+        unsafe {
+            let splat = _mm_set1_pd;
+            let abs_bits = _mm_castsi128_pd(_mm_set1_epi64x(i64::MAX));
+            // No point before the first: NaN makes its step neither rising nor falling.
+            let first_before = before.unwrap_or(f64::NAN);
+            for pair in 0..32 {
+                let j = 2 * pair;
+                let v = _mm_set_pd(word[j + 1], word[j]);
+                let p = _mm_set_pd(word[j], if j == 0 { first_before } else { word[j - 1] });
+                let step = _mm_sub_pd(v, p);
+                let a = _mm_and_pd(v, abs_bits);
+                let bits = |mask: __m128d| (_mm_movemask_pd(mask) as u64) << j;
+                m.above |= bits(_mm_cmpgt_pd(v, _mm_setzero_pd()));
+                m.below |= bits(_mm_cmplt_pd(v, _mm_setzero_pd()));
+                m.rising |= bits(_mm_cmpgt_pd(step, _mm_setzero_pd()));
+                m.falling |= bits(_mm_cmplt_pd(step, _mm_setzero_pd()));
+                m.beyond[2] |= bits(_mm_cmpgt_pd(a, splat(3.0)));
+                if zones {
+                    m.beyond[0] |= bits(_mm_cmpgt_pd(a, splat(1.0)));
+                    m.beyond[1] |= bits(_mm_cmpgt_pd(a, splat(2.0)));
+                    m.beyond_up[0] |= bits(_mm_cmpgt_pd(v, splat(1.0)));
+                    m.beyond_up[1] |= bits(_mm_cmpgt_pd(v, splat(2.0)));
+                    m.beyond_down[0] |= bits(_mm_cmplt_pd(v, splat(-1.0)));
+                    m.beyond_down[1] |= bits(_mm_cmplt_pd(v, splat(-2.0)));
+                    m.within1 |= bits(_mm_cmplt_pd(a, splat(1.0)));
+                }
+            }
+        }
+        m
+    }
+}
+
+/// `mask` shifted up by `k`, its low bits filled from the top of the previous word's.
+fn shifted_in(mask: u64, prev: u64, k: u32) -> u64 {
+    ((u128::from(mask) << 64 | u128::from(prev)) << k >> 64) as u64
+}
+
+/// Bits whose point and the k − 1 points before it are all set.
+fn in_a_row(mask: u64, prev: u64, k: u32) -> u64 {
+    (1..k).fold(mask, |acc, s| acc & shifted_in(mask, prev, s))
+}
+
+/// Set points with at least one more set among the two before.
+fn two_of_three(mask: u64, prev: u64) -> u64 {
+    mask & (shifted_in(mask, prev, 1) | shifted_in(mask, prev, 2))
+}
+
+/// Set points with at least three more set among the four before.
+fn four_of_five(mask: u64, prev: u64) -> u64 {
+    let [a, b, c, d] = [1, 2, 3, 4].map(|k| shifted_in(mask, prev, k));
+    mask & ((a & b & (c | d)) | (c & d & (a | b)))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    /// −1, 0 or 1.
+    fn sign(v: f64) -> i8 {
+        i8::from(v > 0.0) - i8::from(v < 0.0)
+    }
+
+    /// A run's length after one more point: extended, or restarted at 1 (0 when the point
+    /// cannot start one, e.g. on the centre line).
+    fn run_after(run: usize, extends: bool, starts: bool) -> usize {
+        if extends {
+            run + 1
+        } else {
+            usize::from(starts)
+        }
+    }
+
+    /// The tests point by point, as their definitions read: the oracle for [`nelson`].
+    fn nelson_point_by_point(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
+        let on = |r: u8| rules.contains(&r);
+        let mut out = Vec::new();
+        let (mut side_run, mut side) = (0usize, 0i8);
+        let (mut trend_run, mut trend) = (0usize, 0i8);
+        let (mut alt_run, mut last_step) = (0usize, 0i8);
+        let (mut within_run, mut beyond_run) = (0usize, 0usize);
+        for i in 0..z.len() {
+            let v = z[i];
+            let s = sign(v);
+            side_run = run_after(side_run, s != 0 && s == side, s != 0);
+            side = s;
+            if i > 0 {
+                let step = sign(z[i] - z[i - 1]);
+                trend_run = run_after(trend_run, step != 0 && step == trend, step != 0);
+                trend = step;
+                alt_run = run_after(alt_run, step != 0 && step == -last_step, step != 0);
+                last_step = step;
+            }
+            within_run = usize::from(v.abs() < 1.0) * (within_run + 1);
+            beyond_run = usize::from(v.abs() > 1.0) * (beyond_run + 1);
+            // The current point is beyond `limit` on its side, with enough company.
+            let beyond_on_side = |k: usize, limit: f64| -> bool {
+                let sign = v.signum();
+                if v.abs() <= limit || i + 1 < k {
+                    return false;
+                }
+                z[i + 1 - k..=i]
+                    .iter()
+                    .filter(|&&w| w.signum() == sign && w.abs() > limit)
+                    .count()
+                    >= k - 1
+            };
+            let hits = [
+                v.abs() > 3.0,
+                side_run >= 9,
+                trend_run >= 5,
+                alt_run >= 13,
+                beyond_on_side(3, 2.0),
+                beyond_on_side(5, 1.0),
+                within_run >= 15,
+                beyond_run >= 8,
+            ];
+            for (r, hit) in (1u8..).zip(hits) {
+                if hit && on(r) {
+                    out.push((i, r));
+                }
+            }
+        }
+        out
+    }
+
+    /// Points that trip every test often: runs, trends, alternations, ties and zeros, values
+    /// on and around the zone edges.
+    fn points() -> impl Strategy<Value = Vec<f64>> {
+        let value = prop_oneof![
+            (-4.0f64..4.0),
+            prop::sample::select(vec![0.0, 1.0, -1.0, 2.0, -2.0, 3.0, -3.0, 0.5, -0.5]),
+        ];
+        prop::collection::vec(value, 0..400)
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(300))]
+        /// The word-at-a-time tests find exactly the signals of the point-by-point reading.
+        #[test]
+        fn word_masks_agree_with_the_point_by_point_tests(
+            z in points(),
+            trend in -0.2f64..0.2,
+            rules in prop::sample::subsequence(vec![1u8, 2, 3, 4, 5, 6, 7, 8], 0..=8),
+        ) {
+            // A drift makes long trends and one-sided runs common.
+            let z: Vec<f64> = z.iter().enumerate().map(|(i, v)| v * 0.3 + trend * (i % 90) as f64 - 1.0).collect();
+            prop_assert_eq!(nelson(&z, &rules), nelson_point_by_point(&z, &rules));
+        }
+
+        #[test]
+        fn word_masks_agree_on_raw_points(z in points()) {
+            let all = [1u8, 2, 3, 4, 5, 6, 7, 8];
+            prop_assert_eq!(nelson(&z, &all), nelson_point_by_point(&z, &all));
+        }
+    }
+
+    proptest! {
+        /// The two-points-at-a-time masks are the point-by-point ones.
+        #[test]
+        fn word_masks_are_the_point_masks(
+            word in prop::collection::vec(prop_oneof![-4.0f64..4.0, Just(0.0), Just(1.0), Just(-2.0), Just(3.0)], 64),
+            before in prop::option::of(-4.0f64..4.0),
+            zones in any::<bool>(),
+        ) {
+            let a = Masks::of(&word, before, zones);
+            let b = Masks::of_points(&word, before, zones);
+            prop_assert_eq!(
+                (a.above, a.below, a.rising, a.falling, a.beyond, a.beyond_up, a.beyond_down, a.within1),
+                (b.above, b.below, b.rising, b.falling, b.beyond, b.beyond_up, b.beyond_down, b.within1)
+            );
+        }
+    }
+
+    #[test]
+    fn runs_cross_word_boundaries() {
+        // 9 points above the centre from point 60 to 68 straddle the first and second words.
+        let mut z: Vec<f64> = (0..130)
+            .map(|i| if i % 2 == 0 { 0.5 } else { -0.5 })
+            .collect();
+        for v in &mut z[60..69] {
+            *v = 0.5;
+        }
+        assert_eq!(nelson(&z, &[2]), vec![(68, 2)]);
+        assert_eq!(nelson(&z, &[2]), nelson_point_by_point(&z, &[2]));
+    }
 }
