@@ -256,21 +256,31 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
     } else {
         Vec::new()
     };
+    let out = |r: usize| !implausible.is_empty() && implausible.binary_search(&r).is_ok();
+    // Implausible values are numbers, so they come off the count of numbers.
+    let used = (values.iter().filter(|v| !v.is_nan()).count() - implausible.len()) as u64;
     let mut seen: Vec<f64> = Vec::new();
-    let mut decimals = 0u32;
-    let mut used = 0u64;
     for (r, &v) in values.iter().enumerate() {
-        if v.is_nan() || (!implausible.is_empty() && implausible.binary_search(&r).is_ok()) {
-            continue;
+        if seen.len() as u64 >= MIN_DISTINCT_VALUES {
+            break;
         }
-        used += 1;
-        if (seen.len() as u64) < MIN_DISTINCT_VALUES && !seen.contains(&v) {
+        if !v.is_nan() && !out(r) && !seen.contains(&v) {
             seen.push(v);
         }
-        // Most values have no more decimals than the finest seen so far: one test settles it.
-        if !has_at_most(v, decimals) {
-            decimals = decimals.max(decimal_places(v));
+    }
+    // Most values have no more decimals than the finest seen so far: a tight search for the
+    // next one that has more, which alone updates the count.
+    let mut decimals = 0u32;
+    let mut from = 0;
+    while let Some(i) = values[from..]
+        .iter()
+        .position(|&v| !v.is_nan() && !has_at_most(v, decimals))
+    {
+        let r = from + i;
+        if !out(r) {
+            decimals = decimals.max(decimal_places(values[r]));
         }
+        from = r + 1;
     }
     let resolution = (!seen.is_empty()).then(|| 10f64.powi(-(decimals as i32)));
     FeatureCheck {
