@@ -258,10 +258,28 @@ fn indices(mean: f64, sigma: f64, limits: &Limits) -> Indices {
     Indices { p, pl, pu, pk }
 }
 
-/// χ² quantile of ν degrees of freedom.
+/// χ² quantile of ν degrees of freedom. Each is a root search over the incomplete gamma
+/// function, and the features of a wide file share n, so the last few are remembered (per
+/// thread): the same value, found once.
 fn chi2_quantile(p: f64, nu: f64) -> Option<f64> {
-    let d = ChiSquared::new(nu).ok()?;
-    finite(d.inverse_cdf(p))
+    type Seen = Vec<((u64, u64), Option<f64>)>;
+    thread_local! {
+        static SEEN: std::cell::RefCell<Seen> = const { std::cell::RefCell::new(Vec::new()) };
+    }
+    let key = (p.to_bits(), nu.to_bits());
+    if let Some(q) = SEEN.with_borrow(|s| s.iter().find(|(k, _)| *k == key).map(|e| e.1)) {
+        return q;
+    }
+    let q = ChiSquared::new(nu)
+        .ok()
+        .and_then(|d| finite(d.inverse_cdf(p)));
+    SEEN.with_borrow_mut(|s| {
+        if s.len() == 8 {
+            s.remove(0);
+        }
+        s.push((key, q));
+    });
+    q
 }
 
 /// Lower bound Ĉp·√(χ²_{q, n−1}/(n − 1)) (Montgomery, ch. 8; scipy `chi2.ppf(q, n − 1)`).
@@ -334,5 +352,32 @@ fn total(below: Option<f64>, above: Option<f64>) -> Ppm {
         below,
         above,
         total,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Remembered quantiles are the computed ones, in any order of asking and past the
+    /// memory's eight places.
+    #[test]
+    fn remembered_chi2_quantiles_are_the_computed_ones() {
+        let direct = |p: f64, nu: f64| ChiSquared::new(nu).unwrap().inverse_cdf(p);
+        for round in 0..3 {
+            for nu in [
+                4.0, 29.0, 99.0, 199_999.0, 7.0, 12.0, 50.0, 3.0, 1000.0, 2.0,
+            ] {
+                for p in [0.025, 0.05, 0.975] {
+                    let want = direct(p, nu);
+                    assert_eq!(
+                        chi2_quantile(p, nu),
+                        Some(want),
+                        "round {round}, ν {nu}, p {p}"
+                    );
+                }
+            }
+        }
+        assert_eq!(chi2_quantile(0.05, 0.0), None);
     }
 }
