@@ -524,6 +524,32 @@ fn a_file_whose_values_cannot_be_held_is_refused_with_a_message() {
 }
 
 #[test]
+fn a_parquet_file_whose_values_cannot_be_held_is_refused_before_it_is_read() {
+    use polars::prelude::*;
+    let d = tempfile::tempdir().unwrap();
+    let a: Vec<f64> = (0..200).map(|i| 10.0 + f64::from(i % 7) * 0.01).collect();
+    let mut df =
+        df!("part" => (0..200).map(|i| format!("P{i}")).collect::<Vec<_>>(), "a" => a).unwrap();
+    ParquetWriter::new(std::fs::File::create(d.path().join("big.parquet")).unwrap())
+        .finish(&mut df)
+        .unwrap();
+    let out = capstack()
+        .current_dir(d.path())
+        .env("CAPSTACK_MEMORY_LIMIT", "1000")
+        .args(["capability", "big.parquet"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("big.parquet") && err.contains("200 rows × 2 columns"),
+        "{err}"
+    );
+    let v = json_of(d.path(), &["big.parquet"]);
+    assert_eq!(feature(&v, "a")["n"], 200);
+}
+
+#[test]
 fn a_large_file_reads_the_same_across_blocks_pieces_and_both_parsers() {
     // 9 MB, CRLF, more than one 8 MB block and many parallel pieces; quoted ids near the top
     // (those pieces go through the csv reader, the rest through the plain splitter), empty

@@ -8,12 +8,21 @@ use super::{BadCell, RawColumn, RawTable};
 use crate::error::{InputError, Result};
 use polars::prelude::*;
 
+/// Bytes held per cell while a Parquet file is read: polars' frame and capstack's columns exist
+/// at once, so a cell costs 8 bytes more than in a delimited file (an estimate, not measured).
+const BYTES_PER_CELL: f64 = super::delimited::BYTES_PER_CELL + 8.0;
+
 pub(crate) fn read_parquet(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Result<RawTable> {
     let file = std::fs::File::open(path)
         .map_err(|e| InputError::new(format!("{path}: cannot open: {e}")))?;
-    let df = ParquetReader::new(file)
-        .finish()
-        .map_err(|e| InputError::new(format!("{path}: not a readable Parquet file: {e}")))?;
+    let unreadable =
+        |e: PolarsError| InputError::new(format!("{path}: not a readable Parquet file: {e}"));
+    // The size is in the file's footer: refuse before decompressing what cannot be held.
+    let mut reader = ParquetReader::new(file);
+    let rows = reader.num_rows().map_err(unreadable)?;
+    let columns = reader.schema().map_err(unreadable)?.len();
+    super::delimited::check_memory(path, rows, columns, BYTES_PER_CELL)?;
+    let df = reader.finish().map_err(unreadable)?;
     let height = df.height();
     if height == 0 {
         return Err(InputError::new(format!(
