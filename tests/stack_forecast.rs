@@ -332,11 +332,24 @@ fn plan_through_the_binary_gives_needs_mean_correction_sample_sizes_and_the_safe
         "the forecast is above target: every sd must shrink"
     );
     assert_eq!(v["mean_correction"]["reachable"], true);
-    assert!(v["sample_sizes"]
+    let sizes = v["sample_sizes"].as_array().unwrap();
+    assert!(sizes.iter().any(|s| s["parts"].is_u64()));
+    // Four reference values, then one row per contributor with a Ppk, named.
+    assert!(sizes[..4].iter().all(|s| s["contributor"].is_null()));
+    let named: Vec<&str> = sizes[4..]
+        .iter()
+        .map(|s| s["contributor"].as_str().unwrap())
+        .collect();
+    let contributors: Vec<&str> = v["per_contributor"]
         .as_array()
         .unwrap()
         .iter()
-        .any(|s| s["parts"].is_u64()));
+        .map(|c| c["name"].as_str().unwrap())
+        .collect();
+    assert!(
+        !named.is_empty() && named.iter().all(|n| contributors.contains(n)),
+        "{named:?}"
+    );
     assert_eq!(v["safety_factors"].as_array().unwrap().len(), 10);
     let bad = Command::cargo_bin("capstack")
         .unwrap()

@@ -81,9 +81,10 @@ impl Render for PlanReport {
             p.demonstrate_cpk,
             100.0 * p.confidence
         ));
-        let mut s = Table::new(&["observed Cpk", "parts"]);
+        let mut s = Table::new(&["Cpk of", "observed Cpk", "parts"]);
         for r in &p.sample_sizes {
             s.push(vec![
+                r.contributor.as_deref().unwrap_or("(reference)").into(),
                 num(Some(r.observed_cpk), 3).into(),
                 r.parts
                     .map_or("not possible".into(), |n| n.to_string())

@@ -517,6 +517,7 @@ impl Report<'_> {
             .iter()
             .map(|s| {
                 vec![
+                    s.contributor.as_deref().unwrap_or("(reference)").into(),
                     num(Some(s.observed_cpk), 3).into(),
                     s.parts
                         .map_or("not possible".into(), |n| n.to_string())
@@ -524,7 +525,7 @@ impl Report<'_> {
                 ]
             })
             .collect();
-        h.table("sizes", &["observed Cpk", "parts"], &rows);
+        h.table("sizes", &["Cpk of", "observed Cpk", "parts"], &rows);
     }
 
     fn feature_section(

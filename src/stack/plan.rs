@@ -50,6 +50,8 @@ pub struct MeanCorrection {
 /// Parts to measure so that an observed Cpk demonstrates the wanted one at the confidence.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct SampleSize {
+    /// The contributor whose measured Ppk this is; `None` for the reference values.
+    pub contributor: Option<String>,
     pub observed_cpk: f64,
     /// Smallest n with Bissell's lower bound ≥ the wanted Cpk; `None` if the observed Cpk is too low.
     pub parts: Option<usize>,
@@ -149,10 +151,18 @@ pub fn plan(model: &StackModel, target_ppm: f64, demonstrate_cpk: f64, confidenc
             .unwrap_or_default(),
     };
     let mean_correction = mean_correction(model, mean, sd, target_ppm);
+    // Reference values first, then what each contributor's parts show.
     let sample_sizes = [1.4, 1.5, 1.67, 2.0]
         .into_iter()
-        .chain(model.contributors.iter().filter_map(|c| c.ppk))
-        .map(|observed| SampleSize {
+        .map(|cpk| (None, cpk))
+        .chain(
+            model
+                .contributors
+                .iter()
+                .filter_map(|c| c.ppk.map(|ppk| (Some(c.name.clone()), ppk))),
+        )
+        .map(|(contributor, observed)| SampleSize {
+            contributor,
             observed_cpk: observed,
             parts: parts_to_demonstrate(observed, demonstrate_cpk, confidence),
         })
