@@ -17,6 +17,7 @@ import json
 import sys
 import time
 import warnings
+from math import factorial
 
 warnings.filterwarnings("ignore", message=".*N > 5000.*")
 
@@ -31,8 +32,11 @@ D4_2 = 1 + 3 * np.sqrt(2 - 4 / np.pi) / D2_2  # 3.2665: d3(2) = sqrt(2 - 4/pi)
 LSL, USL, T = 9.97, 10.03, 10.0
 CONFIDENCE = 0.95
 MAX_LISTED = 1000
-# Chance per point of tests 1-4 and of a moving range above D4*MRbar (as capstack's README).
-CHANCE_1_4 = 0.0027 + 0.003906 + 0.002778 + 0.000513 + 0.00916
+# Chance per point, for independent normal values, of tests 1-4 (a signal at every point that
+# completes or extends a run): 2*Phi(-3), 2*(1/2)^9, 2/6!, 2*E14/14! (E14 = 199360981, Euler
+# zigzag number), and of a moving range above D4*MRbar: P(|Z| > D4*d2/sqrt(2)).
+CHANCE_1_4 = (2 * stats.norm.cdf(-3) + 2 * 0.5**9 + 2 / factorial(6) + 2 * 199360981 / factorial(14)
+              + 2 * stats.norm.cdf(-D4_2 * D2_2 / np.sqrt(2)))
 
 
 def in_a_row(flags, k):
@@ -114,7 +118,7 @@ def feature_stats(x, parts):
 def check(results, path):
     """Compares the figures with capstack's JSON output on the same file."""
     got = {f["feature"]: f for f in json.load(open(path))["features"]}
-    worst = 0.0
+    worst, chance = 0.0, 0.0
     for name, r in results.items():
         g = got[name]
         for key in ("mean", "sd_overall", "sd_within", "cp", "cpk", "pp", "ppk", "cpm", "cp_lower",
@@ -123,7 +127,10 @@ def check(results, path):
         worst = max(worst, abs(g["shapiro_wilk"]["w"] - r["shapiro_wilk"][0]))
         worst = max(worst, abs(g["anderson_darling"]["a2"] - r["anderson_darling"][0]) / r["anderson_darling"][0])
         assert g["stability"]["signal_count"] == r["stability"]["signal_count"], name
-    print(f"checked against {path}: largest relative difference {worst:.1e}, signal counts equal")
+        chance = max(chance, abs(g["stability"]["expected_by_chance"] - r["stability"]["expected_by_chance"])
+                     / r["stability"]["expected_by_chance"])
+    print(f"checked against {path}: indices within {worst:.1e} relative, signal counts equal, "
+          f"signals expected by chance within {chance:.1e} (capstack's chances carry 5 digits)")
 
 
 def main(path, check_path=None):

@@ -26,15 +26,19 @@ pub const RULES: [(u8, &str); 8] = [
 ];
 
 /// The chance that a given point signals on each test when the points are independent and
-/// normal (computed from the definitions above: e.g. test 2 is 2·(1/2)⁹, test 3 is 2/6!, test
-/// 4 is 2·E₁₄/14! with E the Euler zigzag number, test 7 is 0.6827¹⁵). Tests 1–4 together come
-/// to 0.0099, matching Nelson's "below 1/100".
+/// normal, from the definitions above and the counting convention of the module note:
+/// test 1: 2·Φ(−3); 2: 2·(1/2)⁹; 3: 2/6!; 4: 2·E₁₄/14! (E₁₄ = 199,360,981, the Euler zigzag
+/// number: the alternating orderings of 14 points, either way up); 5: 2·p₂·(1 − (1 − p₂)²),
+/// p₂ = Φ(−2); 6: 2·p₁·(4p₁³(1 − p₁) + p₁⁴), p₁ = Φ(−1); 7: (1 − 2p₁)¹⁵; 8: (2p₁)⁸. Each is
+/// below Nelson's quoted 5/1000 a test; summed, tests 1–4 come to 0.0140 a point, above his
+/// "below 1/100" for the four together, because here a run test signals again at every point
+/// that extends the run. Checked against the formulas and a simulation (unit tests).
 pub const CHANCE_PER_POINT: [f64; 8] = [
-    0.0027, 0.003906, 0.002778, 0.000513, 0.002046, 0.004466, 0.003264, 0.000103,
+    0.0026998, 0.0039062, 0.0027778, 0.0045736, 0.0020467, 0.0044657, 0.0032610, 0.00010277,
 ];
 /// The chance that a moving range exceeds D4(2)·MR̄ for independent normal values:
 /// P(|Z| > 3.2665·d2(2)/√2) = P(|Z| > 2.606).
-pub const CHANCE_MOVING_RANGE: f64 = 0.00916;
+pub const CHANCE_MOVING_RANGE: f64 = 0.009152;
 
 /// Signalling points to expect from chance alone on a stable chart of `points` points.
 pub fn expected_by_chance(points: usize, rules: &[u8], individuals: bool) -> f64 {
@@ -51,7 +55,7 @@ pub fn expected_by_chance(points: usize, rules: &[u8], individuals: bool) -> f64
 }
 
 /// Tests 1–4: Nelson's set for routine use (tests 1–4 together have a false-signal chance
-/// below 1/100 per point, Nelson 1985 as quoted in the project's reference sheet).
+/// below 1/100, Nelson 1985 as quoted in the project's reference sheet).
 pub const DEFAULT_RULES: [u8; 4] = [1, 2, 3, 4];
 
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -582,6 +586,60 @@ mod tests {
             prop_assert_eq!(
                 (a.above, a.below, a.rising, a.falling, a.beyond, a.beyond_up, a.beyond_down, a.within1),
                 (b.above, b.below, b.rising, b.falling, b.beyond, b.beyond_up, b.beyond_down, b.within1)
+            );
+        }
+    }
+
+    /// Each chance from its formula (see [`CHANCE_PER_POINT`]), Φ from `stats::normal`.
+    #[test]
+    fn chances_per_point_are_their_formulas() {
+        use crate::stats::normal::cdf;
+        let (p1, p2) = (cdf(-1.0), cdf(-2.0));
+        let zigzag_14 = 199_360_981.0;
+        let factorial = |n: u32| (1..=n).map(f64::from).product::<f64>();
+        let formulas = [
+            2.0 * cdf(-3.0),
+            2.0 * 0.5f64.powi(9),
+            2.0 / factorial(6),
+            2.0 * zigzag_14 / factorial(14),
+            2.0 * p2 * (1.0 - (1.0 - p2).powi(2)),
+            2.0 * p1 * (4.0 * p1.powi(3) * (1.0 - p1) + p1.powi(4)),
+            (1.0 - 2.0 * p1).powi(15),
+            (2.0 * p1).powi(8),
+        ];
+        for (r, (got, want)) in CHANCE_PER_POINT.iter().zip(formulas).enumerate() {
+            assert!(
+                (got - want).abs() < 1e-4 * want,
+                "test {}: {got} against {want}",
+                r + 1
+            );
+        }
+        let mr = 2.0 * cdf(-3.2665 * (2.0 / std::f64::consts::PI.sqrt()) / 2f64.sqrt());
+        assert!((CHANCE_MOVING_RANGE - mr).abs() < 1e-3 * mr, "{mr}");
+    }
+
+    /// On 4·10⁶ independent normal points each test signals at its chance per point, to within
+    /// five standard errors, the variance taken as six times Poisson's: a run's signals come in
+    /// clusters (a run of 15 within 1σ goes on with chance 0.68, inflating the variance about
+    /// (1 + 0.68)/(1 − 0.68) ≈ 5.3 times; the other tests less).
+    #[test]
+    fn chances_per_point_match_a_simulation() {
+        use rand::SeedableRng;
+        use rand_distr::{Distribution, StandardNormal};
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(7);
+        let n = 4_000_000;
+        let z: Vec<f64> = (0..n).map(|_| StandardNormal.sample(&mut rng)).collect();
+        let mut count = [0usize; 9];
+        for (_, rule) in nelson(&z, &[1, 2, 3, 4, 5, 6, 7, 8]) {
+            count[rule as usize] += 1;
+        }
+        for (r, &p) in CHANCE_PER_POINT.iter().enumerate() {
+            let expected = p * n as f64;
+            let seen = count[r + 1] as f64;
+            assert!(
+                (seen - expected).abs() < 5.0 * (6.0 * expected).sqrt(),
+                "test {}: {seen} signals, {expected:.0} expected",
+                r + 1
             );
         }
     }
