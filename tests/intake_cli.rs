@@ -498,6 +498,21 @@ fn lines_are_physical_in_crlf_files_with_empty_lines_and_quotes() {
     }
 }
 
+/// `capability FILE` under a memory limit of 1000 bytes: exit 2, and the message (which names
+/// the file).
+fn refused_for_memory(dir: &std::path::Path, file: &str) -> String {
+    let out = capstack()
+        .current_dir(dir)
+        .env("CAPSTACK_MEMORY_LIMIT", "1000")
+        .args(["capability", file])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr).into_owned();
+    assert!(err.contains(file), "{err}");
+    err
+}
+
 #[test]
 fn a_file_whose_values_cannot_be_held_is_refused_with_a_message() {
     // The memory check, driven by a limit below what 200 rows × 3 columns need.
@@ -506,18 +521,8 @@ fn a_file_whose_values_cannot_be_held_is_refused_with_a_message() {
         csv.push_str(&format!("P{i},{}.5,{}.25\n", i % 7, i % 5));
     }
     let dir = dir_with(&[("big.csv", &csv)]);
-    let out = capstack()
-        .current_dir(dir.path())
-        .env("CAPSTACK_MEMORY_LIMIT", "1000")
-        .args(["capability", "big.csv"])
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&out.stderr);
-    assert!(
-        err.contains("big.csv") && err.contains("GiB of memory is available"),
-        "{err}"
-    );
+    let err = refused_for_memory(dir.path(), "big.csv");
+    assert!(err.contains("GiB of memory is available"), "{err}");
     // With room, the same file reads.
     let v = json_of(dir.path(), &["big.csv"]);
     assert_eq!(v["audit"]["rows_read"], 200);
@@ -533,18 +538,8 @@ fn a_parquet_file_whose_values_cannot_be_held_is_refused_before_it_is_read() {
     ParquetWriter::new(std::fs::File::create(d.path().join("big.parquet")).unwrap())
         .finish(&mut df)
         .unwrap();
-    let out = capstack()
-        .current_dir(d.path())
-        .env("CAPSTACK_MEMORY_LIMIT", "1000")
-        .args(["capability", "big.parquet"])
-        .output()
-        .unwrap();
-    assert_eq!(out.status.code(), Some(2));
-    let err = String::from_utf8_lossy(&out.stderr);
-    assert!(
-        err.contains("big.parquet") && err.contains("200 rows × 2 columns"),
-        "{err}"
-    );
+    let err = refused_for_memory(d.path(), "big.parquet");
+    assert!(err.contains("200 rows × 2 columns"), "{err}");
     let v = json_of(d.path(), &["big.parquet"]);
     assert_eq!(feature(&v, "a")["n"], 200);
 }

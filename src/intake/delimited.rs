@@ -118,7 +118,7 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
             reserved = true;
             let per_byte = table.lines.len() as f64 / cut.max(1) as f64;
             let rows = (per_byte * file_len as f64 * 1.02) as usize;
-            check_memory(path, rows, names.len(), BYTES_PER_CELL)?;
+            super::memory::check(path, rows, names.len(), BYTES_PER_CELL)?;
             let more = rows.saturating_sub(table.lines.len());
             table.lines.reserve(more);
             for col in &mut table.columns {
@@ -142,44 +142,6 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
 /// Bytes held per row and column while a file is read: the number, plus room for the line
 /// numbers, ids and text codes (measured on the intake benchmark: 1.6× the values).
 pub(super) const BYTES_PER_CELL: f64 = 8.0 * 1.7;
-
-/// Refuses a file whose values cannot be held: `rows` × `columns` cells of `bytes_per_cell`
-/// against the memory available (`CAPSTACK_MEMORY_LIMIT` in bytes, else the system's
-/// available memory).
-pub(super) fn check_memory(
-    path: &str,
-    rows: usize,
-    columns: usize,
-    bytes_per_cell: f64,
-) -> Result<()> {
-    let Some(available) = available_memory() else {
-        return Ok(());
-    };
-    let need = rows as f64 * columns as f64 * bytes_per_cell;
-    if need > available as f64 {
-        let gib = |b: f64| b / (1u64 << 30) as f64;
-        return Err(InputError::new(format!(
-            "{path}: about {rows} rows × {columns} columns need about {:.1} GiB to hold, but {:.1} GiB of memory is available; split the file, or read only the needed columns into a smaller file",
-            gib(need),
-            gib(available as f64)
-        )));
-    }
-    Ok(())
-}
-
-/// `CAPSTACK_MEMORY_LIMIT` (bytes) when set, else `MemAvailable` of /proc/meminfo (Linux).
-fn available_memory() -> Option<u64> {
-    if let Some(limit) = std::env::var("CAPSTACK_MEMORY_LIMIT")
-        .ok()
-        .and_then(|v| v.trim().parse::<u64>().ok())
-    {
-        return Some(limit);
-    }
-    let info = std::fs::read_to_string("/proc/meminfo").ok()?;
-    let line = info.lines().find(|l| l.starts_with("MemAvailable:"))?;
-    let kib: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
-    Some(kib * 1024)
-}
 
 struct ParseContext<'a> {
     path: &'a str,

@@ -9,6 +9,7 @@ mod audit;
 mod cells;
 mod delimited;
 mod long;
+mod memory;
 mod parquet;
 mod specs;
 mod text;

@@ -21,7 +21,7 @@ pub(crate) fn read_parquet(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Resu
     let mut reader = ParquetReader::new(file);
     let rows = reader.num_rows().map_err(unreadable)?;
     let columns = reader.schema().map_err(unreadable)?.len();
-    super::delimited::check_memory(path, rows, columns, BYTES_PER_CELL)?;
+    super::memory::check(path, rows, columns, BYTES_PER_CELL)?;
     let df = reader.finish().map_err(unreadable)?;
     let height = df.height();
     if height == 0 {
