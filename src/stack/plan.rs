@@ -151,7 +151,8 @@ pub fn plan(model: &StackModel, target_ppm: f64, demonstrate_cpk: f64, confidenc
             .unwrap_or_default(),
     };
     let mean_correction = mean_correction(model, mean, sd, target_ppm);
-    // Reference values first, then what each contributor's parts show.
+    // Reference values first (Cpk levels commonly asked of suppliers: common practice, no
+    // published source), then what each contributor's parts show.
     let sample_sizes = [1.4, 1.5, 1.67, 2.0]
         .into_iter()
         .map(|cpk| (None, cpk))
