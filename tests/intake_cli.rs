@@ -147,6 +147,24 @@ fn lists_every_unused_cell_with_file_line_column_text_and_reason() {
 }
 
 #[test]
+fn a_row_without_any_feature_value_is_rejected_and_only_such_a_row() {
+    // Line 3 has no number in either feature; lines 4 and 5 miss one feature each.
+    let text = "part,a,b\nP1,1.0,2.0\nP2,n/a,\nP3,,2.2\nP4,1.3,x\nP5,1.2,2.1\n";
+    let d = dir_with(&[("r.csv", text)]);
+    let a = &json_of(d.path(), &["r.csv"])["audit"];
+    let rejected = a["rejected_rows"].as_array().unwrap();
+    assert_eq!(rejected.len(), 1, "{rejected:?}");
+    assert_eq!(rejected[0]["line"], 3);
+    assert_eq!(rejected[0]["reason"], "no usable feature value");
+    // With one clean feature column no row can be without a value.
+    let clean = "part,a,b\nP1,1.0,2.0\nP2,1.1,\nP3,1.2,x\nP4,1.3,2.3\n";
+    let d = dir_with(&[("c.csv", clean)]);
+    let a = &json_of(d.path(), &["c.csv"])["audit"];
+    assert_eq!(a["rows_rejected"], 0);
+    assert_eq!(a["rows_used"], 4);
+}
+
+#[test]
 fn ragged_rows_list_missing_cells_as_blank_and_extra_cells_as_extra() {
     let text = "part,a,b\nP1,1.0,2.0\nP2,1.1\nP3,1.2,2.2,99\nP4,1.3,2.3\nP5,1.2,2.1\n";
     let d = dir_with(&[("r.csv", text)]);

@@ -245,20 +245,27 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
         Some(cw) => cw,
         None => robust_centre_and_spread(values),
     };
-    let implausible = if width > 0.0 {
-        let limit = IMPLAUSIBLE_WIDTHS * width;
-        values
-            .iter()
-            .enumerate()
-            .filter(|(_, v)| (*v - centre).abs() > limit)
-            .map(|(r, _)| r)
-            .collect()
-    } else {
-        Vec::new()
-    };
+    // One pass for the implausible rows and the count of numbers, a chunk at a time: the
+    // chunk is tested whole (no early exit, so the test vectorises) and searched only when
+    // it holds an implausible value, which is rare.
+    let limit = IMPLAUSIBLE_WIDTHS * width;
+    let far = |v: f64| width > 0.0 && (v - centre).abs() > limit;
+    let mut implausible = Vec::new();
+    let mut numbers = 0usize;
+    for (k, chunk) in values.chunks(CHUNK).enumerate() {
+        numbers += chunk.iter().filter(|v| !v.is_nan()).count();
+        if chunk.iter().fold(false, |any, &v| any | far(v)) {
+            let first = k * CHUNK;
+            implausible.extend(
+                (0..chunk.len())
+                    .filter(|&i| far(chunk[i]))
+                    .map(|i| first + i),
+            );
+        }
+    }
     let out = |r: usize| !implausible.is_empty() && implausible.binary_search(&r).is_ok();
     // Implausible values are numbers, so they come off the count of numbers.
-    let used = (values.iter().filter(|v| !v.is_nan()).count() - implausible.len()) as u64;
+    let used = (numbers - implausible.len()) as u64;
     let mut seen: Vec<f64> = Vec::new();
     for (r, &v) in values.iter().enumerate() {
         if seen.len() as u64 >= MIN_DISTINCT_VALUES {
@@ -272,11 +279,7 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
     // next one that has more, which alone updates the count.
     let mut decimals = 0u32;
     let mut from = 0;
-    while let Some(i) = values[from..]
-        .iter()
-        .position(|&v| !v.is_nan() && !has_at_most(v, decimals))
-    {
-        let r = from + i;
+    while let Some(r) = next_with_more_decimals(values, from, decimals) {
         if !out(r) {
             decimals = decimals.max(decimal_places(values[r]));
         }
@@ -289,6 +292,22 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
         resolution,
         used,
     }
+}
+
+/// Values tested at a time by the audit's scans.
+const CHUNK: usize = 16;
+
+/// The first row from `from` on whose value (not NaN) has more than `k` decimal places. Each
+/// chunk is tested whole, which vectorises; only the chunk that holds one is searched.
+fn next_with_more_decimals(values: &[f64], from: usize, k: u32) -> Option<usize> {
+    let finer = |v: f64| !v.is_nan() && !has_at_most(v, k);
+    let rest = values.get(from..)?;
+    let (c, chunk) = rest
+        .chunks(CHUNK)
+        .enumerate()
+        .find(|(_, chunk)| chunk.iter().fold(false, |any, &v| any | finer(v)))?;
+    let at = chunk.iter().position(|&v| finer(v))?;
+    Some(from + c * CHUNK + at)
 }
 
 /// Whether `v` has at most `k` decimal places (the test of [`decimal_places`] at k).
@@ -379,4 +398,70 @@ fn robust_centre_and_spread(values: &[f64]) -> (f64, f64) {
 fn trim_float(v: f64) -> String {
     let s = format!("{v:.6}");
     s.trim_end_matches('0').trim_end_matches('.').to_string()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    /// The scans as first written, a value at a time: the oracle for the chunked ones.
+    fn check_by_one(values: &[f64], centre: f64, width: f64) -> (Vec<usize>, u64, u32) {
+        let limit = IMPLAUSIBLE_WIDTHS * width;
+        let implausible: Vec<usize> = (0..values.len())
+            .filter(|&r| width > 0.0 && (values[r] - centre).abs() > limit)
+            .collect();
+        let numbers = values.iter().filter(|v| !v.is_nan()).count();
+        let decimals = (0..values.len())
+            .filter(|&r| !values[r].is_nan() && implausible.binary_search(&r).is_err())
+            .map(|r| decimal_places(values[r]))
+            .max()
+            .unwrap_or(0);
+        let used = (numbers - implausible.len()) as u64;
+        (implausible, used, decimals)
+    }
+
+    fn value() -> impl Strategy<Value = f64> {
+        prop_oneof![
+            8 => (-10_000i64..10_000, 0u32..6).prop_map(|(m, d)| m as f64 / 10f64.powi(d as i32)),
+            1 => Just(f64::NAN),
+            1 => prop_oneof![Just(1e7), Just(-3e6), Just(2.5e9)],
+        ]
+    }
+
+    proptest! {
+        #[test]
+        fn chunked_scans_find_what_a_value_at_a_time_finds(
+            values in prop::collection::vec(value(), 0..200),
+        ) {
+            let spec = crate::intake::Spec {
+                nominal: Some(0.0),
+                lsl: Some(-1.0),
+                usl: Some(1.0),
+                unit: None,
+                source: String::new(),
+                source_file: String::new(),
+                source_line: None,
+            };
+            let check = check_feature(&values, Some(&spec));
+            let (implausible, used, decimals) = check_by_one(&values, 0.0, 2.0);
+            prop_assert_eq!(&check.implausible, &implausible);
+            prop_assert_eq!(check.used, used);
+            if check.distinct > 0 {
+                prop_assert_eq!(check.resolution, Some(10f64.powi(-(decimals as i32))));
+            }
+        }
+    }
+
+    #[test]
+    fn resolution_is_the_finest_decimal_place_written() {
+        let mut values = vec![10.0; 40];
+        values[3] = 10.5;
+        values[17] = f64::NAN;
+        values[33] = 10.125;
+        values[36] = 10.25;
+        let check = check_feature(&values, None);
+        assert_eq!(check.resolution, Some(1e-3));
+        assert_eq!(check.used, 39);
+    }
 }

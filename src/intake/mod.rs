@@ -384,6 +384,36 @@ fn is_default_id(name: &str) -> bool {
         .any(|c| c.eq_ignore_ascii_case(name))
 }
 
+/// The rows in which every feature column is empty (NaN).
+fn rows_without_value(columns: &[RawColumn], roles: &[Role]) -> Vec<usize> {
+    let features: Vec<&RawColumn> = columns
+        .iter()
+        .zip(roles)
+        .filter(|(_, r)| **r == Role::Feature)
+        .map(|(c, _)| c)
+        .collect();
+    // Every NaN a reader writes is one of its column's bad cells: one clean feature column
+    // gives every row a value, and spares the pass over the whole table.
+    if features.iter().any(|c| c.bad.is_empty()) {
+        return Vec::new();
+    }
+    let rows = features.first().map_or(0, |c| c.numbers.len());
+    let mut row_has_value = vec![false; rows];
+    const CHUNK: usize = 1 << 16;
+    row_has_value
+        .par_chunks_mut(CHUNK)
+        .enumerate()
+        .for_each(|(k, has)| {
+            for col in &features {
+                let part = &col.numbers[k * CHUNK..(k * CHUNK + has.len())];
+                for (h, v) in has.iter_mut().zip(part) {
+                    *h |= !v.is_nan();
+                }
+            }
+        });
+    (0..rows).filter(|&r| !row_has_value[r]).collect()
+}
+
 /// Wide layout: each row a part, each numeric column a feature, other columns text attributes.
 fn add_wide(
     path: &str,
@@ -453,36 +483,15 @@ fn add_wide(
     let first_row = data.rows();
     let rows = lines.len();
     // Rows with no usable feature value are rejected (they still count as read).
-    let feature_values: Vec<&[f64]> = columns
-        .iter()
-        .zip(&roles)
-        .filter(|(_, r)| **r == Role::Feature)
-        .map(|(c, _)| c.numbers.as_slice())
-        .collect();
-    let mut row_has_value = vec![false; rows];
-    const CHUNK: usize = 1 << 16;
-    row_has_value
-        .par_chunks_mut(CHUNK)
-        .enumerate()
-        .for_each(|(k, has)| {
-            for values in &feature_values {
-                let part = &values[k * CHUNK..(k * CHUNK + has.len())];
-                for (h, v) in has.iter_mut().zip(part) {
-                    *h |= !v.is_nan();
-                }
-            }
-        });
-    let mut unused = Vec::new();
     let mut rejected = rejected;
-    for (r, has) in row_has_value.iter().enumerate() {
-        if !has {
-            rejected.push(RejectedRow {
-                file: path.to_string(),
-                line: lines[r],
-                reason: "no usable feature value".into(),
-            });
-        }
+    for r in rows_without_value(&columns, &roles) {
+        rejected.push(RejectedRow {
+            file: path.to_string(),
+            line: lines[r],
+            reason: "no usable feature value".into(),
+        });
     }
+    let mut unused = Vec::new();
 
     if data.row_line.is_empty() {
         data.row_line = lines;
