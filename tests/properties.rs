@@ -159,6 +159,17 @@ proptest! {
 }
 
 proptest! {
+    /// The extremes are kept in four lanes and a remainder: wherever they fall, min and max
+    /// are the sample's (checked against the iterator's own fold).
+    #[test]
+    fn moments_find_the_extremes_in_every_lane(x in prop::collection::vec(-1e6f64..1e6, 1..40)) {
+        let m = capstack::stats::moments::moments(&x);
+        prop_assert_eq!(m.min, x.iter().copied().fold(f64::INFINITY, f64::min));
+        prop_assert_eq!(m.max, x.iter().copied().fold(f64::NEG_INFINITY, f64::max));
+    }
+}
+
+proptest! {
     /// Sorting by the decimal grid or by comparison gives the values in `total_cmp` order,
     /// each exactly once, on and off the grid.
     #[test]
