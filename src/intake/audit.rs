@@ -300,7 +300,8 @@ const CHUNK: usize = 16;
 /// The first row from `from` on whose value (not NaN) has more than `k` decimal places. Each
 /// chunk is tested whole, which vectorises; only the chunk that holds one is searched.
 fn next_with_more_decimals(values: &[f64], from: usize, k: u32) -> Option<usize> {
-    let finer = |v: f64| !v.is_nan() && !has_at_most(v, k);
+    // `&` not `&&`: no branch in the chunk's test.
+    let finer = |v: f64| !v.is_nan() & !has_at_most(v, k);
     let rest = values.get(from..)?;
     let (c, chunk) = rest
         .chunks(CHUNK)
@@ -313,7 +314,10 @@ fn next_with_more_decimals(values: &[f64], from: usize, k: u32) -> Option<usize>
 /// Whether `v` has at most `k` decimal places (the test of [`decimal_places`] at k).
 fn has_at_most(v: f64, k: u32) -> bool {
     let scaled = v.abs() * POW10[k.min(9) as usize];
-    (scaled - round_half_even(scaled)).abs() <= 1e-9 * scaled.max(1.0)
+    // max(scaled, 1) by comparison: the NaN-propagating f64::max would keep the scan from
+    // vectorising (and a NaN value takes 1 either way).
+    let unit = if scaled > 1.0 { scaled } else { 1.0 };
+    (scaled - round_half_even(scaled)).abs() <= 1e-9 * unit
 }
 
 /// x rounded to the nearest integer (ties to even) by adding and removing 1.5·2⁵², which
