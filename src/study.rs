@@ -9,6 +9,7 @@ use crate::stats::groups::{self, Test};
 use crate::stats::within::WithinMethod;
 use rayon::prelude::*;
 use serde::Serialize;
+use std::borrow::Cow;
 use std::collections::BTreeMap;
 
 /// How the study orders, groups and judges the values.
@@ -221,15 +222,21 @@ pub fn study(
         ),
         _ => None,
     };
+    // Groups that are every row in file order: a feature with a value in each of them is
+    // used as it stands, without gathering it.
+    let whole: Vec<bool> = groups
+        .iter()
+        .map(|(_, rows)| rows.len() == data.rows() && rows.iter().enumerate().all(|(i, &r)| i == r))
+        .collect();
     let mut jobs = Vec::new();
     for f in 0..data.features.len() {
-        for (g, rows) in &groups {
-            jobs.push((f, g, rows));
+        for ((g, rows), &whole) in groups.iter().zip(&whole) {
+            jobs.push((f, g, rows, whole));
         }
     }
     let results = jobs
         .par_iter()
-        .map(|&(f, group, rows)| {
+        .map(|&(f, group, rows, whole)| {
             let feature = &data.features[f];
             let spec = specs
                 .get(&feature.name)
@@ -247,21 +254,28 @@ pub fn study(
                 .iter()
                 .map(|fa| fa.features.contains(&feature.name))
                 .collect();
-            // One pass: the rows with a value, their values, and the rows of files that have
-            // this feature but no value for it (missing).
-            let mut used_rows = Vec::with_capacity(rows.len());
-            let mut values = Vec::with_capacity(rows.len());
-            let mut missing = 0u64;
-            for &r in rows.iter() {
-                let v = feature.values[r];
-                if v.is_nan() {
-                    let file = data.row_file[r] as usize;
-                    missing += u64::from(files_with.get(file).copied().unwrap_or(false));
+            // The rows with a value (None: all of them, in file order), their values, and the
+            // rows of files that have this feature but no value for it (missing).
+            let (values, used_rows, missing) =
+                if whole && !feature.values.iter().any(|v| v.is_nan()) {
+                    (Cow::Borrowed(feature.values.as_slice()), None, 0)
                 } else {
-                    used_rows.push(r);
-                    values.push(v);
-                }
-            }
+                    let mut used_rows = Vec::with_capacity(rows.len());
+                    let mut values = Vec::with_capacity(rows.len());
+                    let mut missing = 0u64;
+                    for &r in rows.iter() {
+                        let v = feature.values[r];
+                        if v.is_nan() {
+                            let file = data.row_file[r] as usize;
+                            missing += u64::from(files_with.get(file).copied().unwrap_or(false));
+                        } else {
+                            used_rows.push(r);
+                            values.push(v);
+                        }
+                    }
+                    (Cow::Owned(values), Some(used_rows), missing)
+                };
+            let row_of = |point: usize| used_rows.as_ref().map_or(point, |rows| rows[point]);
             let subgroups = match &settings.subgroups {
                 Subgrouping::Individuals => None,
                 Subgrouping::Size(m) => {
@@ -270,7 +284,7 @@ pub fn study(
                 Subgrouping::Column(_) => {
                     let attr = subgroup_attr.expect("checked above");
                     let mut by: BTreeMap<u32, Vec<f64>> = BTreeMap::new();
-                    for &r in &used_rows {
+                    for r in (0..values.len()).map(row_of) {
                         by.entry(attr.codes[r]).or_default().push(feature.values[r]);
                     }
                     Some(by.into_values().collect())
@@ -289,7 +303,7 @@ pub fn study(
             let chart = chart_for(&values, subgroups.as_deref(), options.within, chosen);
             let individual = subgroups.is_none();
             let locate = |point: usize| {
-                let r = used_rows[point];
+                let r = row_of(point);
                 (
                     Some(data.files[data.row_file[r] as usize].clone()),
                     Some(data.value_line(f, r)),
@@ -304,7 +318,7 @@ pub fn study(
                 }
             }
             let values = if settings.keep_points || settings.by.is_some() {
-                values
+                values.into_owned()
             } else {
                 Vec::new()
             };

@@ -165,6 +165,32 @@ fn a_row_without_any_feature_value_is_rejected_and_only_such_a_row() {
 }
 
 #[test]
+fn a_feature_used_as_read_and_one_gathered_round_its_gaps_give_the_same_statistics() {
+    // Without gaps the column is used as it stands; a part with no value for `a` at the end
+    // makes the study gather the rows that have one. Everything but `missing` must agree,
+    // the signals' parts and lines included.
+    let mut rows = String::from("part,a,b\n");
+    for i in 0..60 {
+        let a = 10.0 + ((i * 37) % 11) as f64 * 0.01 + if i >= 45 { 0.2 } else { 0.0 };
+        rows.push_str(&format!("P{i},{a:.2},{}\n", 5 + i % 3));
+    }
+    let gap = format!("{rows}P60,,5\n");
+    let d = dir_with(&[("whole.csv", &rows), ("gap.csv", &gap)]);
+    let mut whole = feature(&json_of(d.path(), &["whole.csv"]), "a").clone();
+    let mut gathered = feature(&json_of(d.path(), &["gap.csv"]), "a").clone();
+    assert_eq!(gathered["missing"], 1);
+    assert!(!whole["stability"]["signals"].as_array().unwrap().is_empty());
+    for f in [&mut whole, &mut gathered] {
+        f.as_object_mut().unwrap().remove("missing");
+        let signals = f["stability"]["signals"].as_array_mut().unwrap();
+        for s in signals {
+            s.as_object_mut().unwrap().remove("file");
+        }
+    }
+    assert_eq!(whole, gathered);
+}
+
+#[test]
 fn ragged_rows_list_missing_cells_as_blank_and_extra_cells_as_extra() {
     let text = "part,a,b\nP1,1.0,2.0\nP2,1.1\nP3,1.2,2.2,99\nP4,1.3,2.3\nP5,1.2,2.1\n";
     let d = dir_with(&[("r.csv", text)]);
