@@ -53,7 +53,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
     write(
         &args.out,
         "capability.json",
-        &pretty(&capability.json()),
+        &capability.json().unwrap_or_default(),
         &mut written,
     )?;
     write(&args.out, "capability.csv", &capability.csv(), &mut written)?;
@@ -93,7 +93,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
     write(
         &args.out,
         "stack.json",
-        &pretty(&report.json()),
+        &report.json().unwrap_or_default(),
         &mut written,
     )?;
     let plan = PlanReport {
@@ -101,7 +101,12 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
         safety_factors: safety_factor_table(),
     };
     write(&args.out, "plan.txt", &plan.table(false), &mut written)?;
-    write(&args.out, "plan.json", &pretty(&plan.json()), &mut written)?;
+    write(
+        &args.out,
+        "plan.json",
+        &plan.json().unwrap_or_default(),
+        &mut written,
+    )?;
 
     let stack_path = data_dir.join("end_play.toml").display().to_string();
     let html = Report {
@@ -163,12 +168,6 @@ fn grouped(
         0.95,
         DEFAULT_ALPHA,
     ))
-}
-
-fn pretty(v: &serde_json::Value) -> String {
-    let mut s = serde_json::to_string_pretty(v).unwrap_or_default();
-    s.push('\n');
-    s
 }
 
 fn write(dir: &Path, name: &str, text: &str, written: &mut Vec<String>) -> Result<(), InputError> {

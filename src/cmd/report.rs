@@ -139,8 +139,8 @@ impl Render for Written {
         out
     }
 
-    fn json(&self) -> serde_json::Value {
-        serde_json::to_value(self).unwrap_or(serde_json::Value::Null)
+    fn json(&self) -> serde_json::Result<String> {
+        crate::output::json_text(self)
     }
 }
 

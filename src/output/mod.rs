@@ -57,18 +57,23 @@ impl Sink {
 pub trait Render {
     fn table(&self, colour: bool) -> String;
     fn csv(&self) -> String;
-    fn json(&self) -> serde_json::Value;
+    /// The JSON document, pretty-printed, with a final newline.
+    fn json(&self) -> serde_json::Result<String>;
+}
+
+/// Pretty JSON written straight from the result, with no tree of values built in between (a
+/// capability run lists up to a thousand signals per feature: tens of megabytes).
+pub fn json_text(value: &impl serde::Serialize) -> serde_json::Result<String> {
+    let mut s = serde_json::to_string_pretty(value)?;
+    s.push('\n');
+    Ok(s)
 }
 
 pub fn render(result: &dyn Render, format: Format, sink: &mut Sink) -> anyhow::Result<()> {
     let text = match format {
         Format::Table => result.table(sink.colour),
         Format::Csv => result.csv(),
-        Format::Json => {
-            let mut s = serde_json::to_string_pretty(&result.json())?;
-            s.push('\n');
-            s
-        }
+        Format::Json => result.json()?,
     };
     sink.write_str(&text)?;
     Ok(())

@@ -126,7 +126,7 @@ impl Render for PlanReport {
         out
     }
 
-    fn json(&self) -> serde_json::Value {
-        serde_json::to_value(self).unwrap_or(serde_json::Value::Null)
+    fn json(&self) -> serde_json::Result<String> {
+        super::json_text(self)
     }
 }

@@ -21,10 +21,14 @@ pub struct StackReport {
     pub worst_case: Range,
     pub rss: Rss,
     pub measured: Measured,
+    /// Present only when a simulation was run.
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub simulation: Option<Simulation>,
     /// Reject rates from the stated shapes without sampling noise.
     pub exact_tail: TailForecast,
-    /// The bootstrap interval of the measured forecast (n parts measured).
+    /// The bootstrap interval of the measured forecast (n parts measured); present only
+    /// when it was computed.
+    #[serde(skip_serializing_if = "Option::is_none")]
     pub forecast_uncertainty: Option<ForecastUncertainty>,
     pub contributors: Vec<ContributorVerdict>,
     /// The contributors by share of the assembly variance, largest first: where to act.
@@ -327,16 +331,7 @@ impl Render for StackReport {
         out
     }
 
-    fn json(&self) -> serde_json::Value {
-        let mut v = serde_json::to_value(self).unwrap_or(serde_json::Value::Null);
-        // `simulation` appears only when a simulation was run.
-        if let Some(obj) = v.as_object_mut() {
-            for key in ["simulation", "forecast_uncertainty"] {
-                if obj.get(key).is_some_and(|s| s.is_null()) {
-                    obj.remove(key);
-                }
-            }
-        }
-        v
+    fn json(&self) -> serde_json::Result<String> {
+        super::json_text(self)
     }
 }
