@@ -269,8 +269,10 @@ fn runs_on_grid(x: &[f64], min: f64, max: f64) -> Option<Runs> {
     }
     let mut counts = vec![0usize; points];
     let mut values = vec![f64::NAN; points];
+    let last = points as i64 - 1;
     for &v in x {
-        let b = (((v - min) * per_step + 0.5) as usize).min(points - 1);
+        // Through i64 (one conversion instruction; the usize one takes several), clamped.
+        let b = (((v - min) * per_step + 0.5) as i64).clamp(0, last) as usize;
         if counts[b] == 0 {
             values[b] = v;
         } else if values[b] != v {
