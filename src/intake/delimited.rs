@@ -83,8 +83,8 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
     let mut reserved = false;
     // The next block is read while this one is parsed.
     let mut next: Vec<u8> = Vec::with_capacity(BLOCK);
+    let mut quoted = has_quote(&buf);
     loop {
-        let quoted = memchr::memchr(b'"', &buf).is_some();
         let cut = if eof {
             Some(buf.len())
         } else {
@@ -94,6 +94,7 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
             // One record longer than the buffer: read on until it ends.
             let target = buf.len() + BLOCK;
             eof = fill(&mut file, &mut buf, target, path)?;
+            quoted = has_quote(&buf);
             continue;
         };
         let (block, tail) = buf.split_at(cut);
@@ -103,12 +104,13 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
         let (parsed, read) = if eof {
             (
                 parse_block(block, quoted, lines_before, &ctx, &mut table),
-                Ok(true),
+                Ok((true, false)),
             )
         } else {
+            // The reading side also looks for quotes in the next block, off the main path.
             rayon::join(
                 || parse_block(block, quoted, lines_before, &ctx, &mut table),
-                || fill(&mut file, &mut next, target, path),
+                || fill(&mut file, &mut next, target, path).map(|eof| (eof, has_quote(&next))),
             )
         };
         lines_before += parsed?;
@@ -128,7 +130,7 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
         if eof {
             break;
         }
-        eof = read?;
+        (eof, quoted) = read?;
         std::mem::swap(&mut buf, &mut next);
     }
     if table.lines.is_empty() {
@@ -444,16 +446,32 @@ struct PieceRest {
     decimal_comma_used: bool,
 }
 
-/// A piece's newlines, and the most records it can hold: one per newline, per carriage
-/// return not followed by a newline (the csv reader ends a record there too), and one for an
-/// unterminated last line.
-fn record_capacity(s: &[u8]) -> (u64, usize) {
+fn has_quote(s: &[u8]) -> bool {
+    memchr::memchr(b'"', s).is_some()
+}
+
+/// What a piece holds before it is parsed.
+struct PieceCount {
+    newlines: u64,
+    /// The most records it can hold: one per newline, per carriage return not followed by a
+    /// newline (the csv reader ends a record there too), and one for an unterminated last line.
+    capacity: usize,
+    /// No quote characters, and every carriage return ends a line (CRLF): records are lines.
+    plain: bool,
+}
+
+/// Counts a piece; `quoted` when its block holds a quote character somewhere.
+fn count_piece(s: &[u8], quoted: bool) -> PieceCount {
     let newlines = count_newlines(s);
     let lone_cr = memchr::memchr_iter(b'\r', s)
         .filter(|&i| s.get(i + 1) != Some(&b'\n'))
         .count();
     let last = usize::from(!s.is_empty() && !s.ends_with(b"\n"));
-    (newlines as u64, newlines + lone_cr + last)
+    PieceCount {
+        newlines: newlines as u64,
+        capacity: newlines + lone_cr + last,
+        plain: lone_cr == 0 && !(quoted && has_quote(s)),
+    }
 }
 
 /// Parses a block of whole records on all cores and appends it to the table; returns the
@@ -467,15 +485,15 @@ fn parse_block(
     table: &mut RawTable,
 ) -> Result<u64> {
     let pieces = split_records(block, rayon::current_num_threads() * 2, quoted);
-    let counts: Vec<(u64, usize)> = pieces.par_iter().map(|p| record_capacity(p)).collect();
+    let counts: Vec<PieceCount> = pieces.par_iter().map(|p| count_piece(p, quoted)).collect();
     let mut offsets = Vec::with_capacity(pieces.len());
     let mut acc = lines_before;
-    for (n, _) in &counts {
+    for c in &counts {
         offsets.push(acc);
-        acc += n;
+        acc += c.newlines;
     }
     let base = table.lines.len();
-    let capacity: usize = counts.iter().map(|c| c.1).sum();
+    let capacity: usize = counts.iter().map(|c| c.capacity).sum();
     // Columns grow in parallel: the first touch of fresh memory costs as much as the writes.
     table.lines.resize(base + capacity, 0);
     table
@@ -485,26 +503,27 @@ fn parse_block(
     // Every piece's stretch of the lines and of each column.
     let mut line_parts = Vec::with_capacity(pieces.len());
     let mut rest = &mut table.lines[base..];
-    for (_, cap) in &counts {
-        let (part, tail) = rest.split_at_mut(*cap);
+    for c in &counts {
+        let (part, tail) = rest.split_at_mut(c.capacity);
         line_parts.push(part);
         rest = tail;
     }
     let mut number_parts: Vec<Vec<&mut [f64]>> = (0..pieces.len()).map(|_| Vec::new()).collect();
     for col in &mut table.columns {
         let mut rest = &mut col.numbers[base..];
-        for (i, (_, cap)) in counts.iter().enumerate() {
-            let (part, tail) = rest.split_at_mut(*cap);
+        for (i, c) in counts.iter().enumerate() {
+            let (part, tail) = rest.split_at_mut(c.capacity);
             number_parts[i].push(part);
             rest = tail;
         }
     }
     let results: Vec<Result<PieceRest>> = pieces
         .par_iter()
+        .zip(&counts)
         .zip(offsets)
         .zip(line_parts.into_par_iter().zip(number_parts))
-        .map(|((p, before), (lines, numbers))| {
-            parse_piece(p, before, Piece::new(lines, numbers), ctx)
+        .map(|(((p, count), before), (lines, numbers))| {
+            parse_piece(p, count.plain, before, Piece::new(lines, numbers), ctx)
         })
         .collect();
     let mut rests = Vec::with_capacity(results.len());
@@ -514,7 +533,7 @@ fn parse_block(
     // Close up the stretches the pieces did not fill, keeping each piece's first row.
     let mut firsts = Vec::with_capacity(rests.len());
     let (mut from, mut to) = (base, base);
-    for (rest, (_, cap)) in rests.iter().zip(&counts) {
+    for (rest, count) in rests.iter().zip(&counts) {
         if from != to {
             table.lines.copy_within(from..from + rest.rows, to);
             for col in &mut table.columns {
@@ -523,7 +542,7 @@ fn parse_block(
         }
         firsts.push(to);
         to += rest.rows;
-        from += cap;
+        from += count.capacity;
     }
     table.lines.truncate(to);
     for col in &mut table.columns {
@@ -582,17 +601,18 @@ fn append_part(col: &mut RawColumn, part: PieceText, first: usize) {
     }
 }
 
-/// Parses one piece (whole records): by plain splitting when it has no quotes and no lone
-/// carriage return, else with the csv reader. Both give the physical line of each record and
+/// Parses one piece (whole records): by plain splitting when it is `plain` (see
+/// [`PieceCount`]), else with the csv reader. Both give the physical line of each record and
 /// skip empty lines, as the csv reader does.
 fn parse_piece(
     s: &[u8],
+    plain: bool,
     lines_before: u64,
     mut piece: Piece,
     ctx: &ParseContext,
 ) -> Result<PieceRest> {
     check_utf8(s, ctx.path, lines_before)?;
-    if is_plain(s) {
+    if plain {
         parse_plain(s, lines_before, ctx, &mut piece);
     } else {
         parse_quoted(s, lines_before, ctx, &mut piece)?;
@@ -604,12 +624,6 @@ fn parse_piece(
         extra: piece.extra,
         decimal_comma_used: piece.decimal_comma_used,
     })
-}
-
-/// No quote characters, and every carriage return ends a line (CRLF).
-fn is_plain(s: &[u8]) -> bool {
-    memchr::memchr(b'"', s).is_none()
-        && memchr::memchr_iter(b'\r', s).all(|i| s.get(i + 1) == Some(&b'\n'))
 }
 
 /// Records are lines, cells are split at the delimiter: the common export, parsed without
@@ -988,8 +1002,9 @@ mod tests {
                 keep: &keep,
             };
             let s = text.as_bytes();
-            prop_assume!(is_plain(s));
-            let cap = record_capacity(s).1;
+            let count = count_piece(s, true);
+            prop_assume!(count.plain);
+            let cap = count.capacity;
             let (mut lines_a, mut lines_b) = (vec![0; cap], vec![0; cap]);
             let mut numbers_a = vec![vec![f64::NAN; cap]; ncol];
             let mut numbers_b = numbers_a.clone();
@@ -1063,14 +1078,14 @@ mod tests {
         };
         for text in ["1,2\r\n\r\n3,x\r\n", "\"1\",2\r\n\r\n3,x\r\n"] {
             let s = text.as_bytes();
-            let cap = record_capacity(s).1;
-            let mut lines = vec![0; cap];
-            let mut numbers = vec![vec![f64::NAN; cap]; 2];
+            let count = count_piece(s, true);
+            let mut lines = vec![0; count.capacity];
+            let mut numbers = vec![vec![f64::NAN; count.capacity]; 2];
             let piece = Piece::new(
                 &mut lines,
                 numbers.iter_mut().map(|v| v.as_mut_slice()).collect(),
             );
-            let rest = parse_piece(s, 1, piece, &ctx).unwrap();
+            let rest = parse_piece(s, count.plain, 1, piece, &ctx).unwrap();
             assert_eq!(&lines[..rest.rows], [2, 4], "{text:?}");
         }
     }
