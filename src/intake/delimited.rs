@@ -753,10 +753,12 @@ fn cell_ends(rec: &[u8], delimiter: u8, ends: &mut Vec<usize>) -> usize {
 /// power of ten.
 #[inline(always)]
 fn plain_decimal(s: &[u8], from: usize, to: usize) -> Option<f64> {
-    short_decimal(s, from, to).or_else(|| {
+    // Not `or_else`: a call the AVX2 build would not inline.
+    match short_decimal(s, from, to) {
+        Some(v) => Some(v),
         // A cell holds no newline: read with it as the delimiter, the number must fill it.
-        scan_decimal(&s[from..to], &mut 0, b'\n')
-    })
+        None => scan_decimal(&s[from..to], &mut 0, b'\n'),
+    }
 }
 
 /// [`plain_decimal`] for cells of at most eight bytes, all at once: the eight bytes ending at
