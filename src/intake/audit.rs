@@ -245,22 +245,28 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
         Some(cw) => cw,
         None => robust_centre_and_spread(values),
     };
-    // One pass for the implausible rows and the count of numbers, a chunk at a time: the
-    // chunk is tested whole (no early exit, so the test vectorises) and searched only when
-    // it holds an implausible value, which is rare.
+    // One pass for the count of numbers, the implausible rows and the finest decimal place
+    // of the others, a chunk at a time: the chunk is tested whole (no early exit, so the tests
+    // vectorise) and gone through value by value only when it holds an implausible value or
+    // one with more decimals than seen so far, which is rare.
     let limit = IMPLAUSIBLE_WIDTHS * width;
     let far = |v: f64| width > 0.0 && (v - centre).abs() > limit;
+    // `&` not `&&`: no branch in the chunk's test.
+    let finer = |v: f64, k: u32| !v.is_nan() & !has_at_most(v, k);
     let mut implausible = Vec::new();
     let mut numbers = 0usize;
-    for (k, chunk) in values.chunks(CHUNK).enumerate() {
+    let mut decimals = 0u32;
+    for (c, chunk) in values.chunks(CHUNK).enumerate() {
         numbers += chunk.iter().filter(|v| !v.is_nan()).count();
-        if chunk.iter().fold(false, |any, &v| any | far(v)) {
-            let first = k * CHUNK;
-            implausible.extend(
-                (0..chunk.len())
-                    .filter(|&i| far(chunk[i]))
-                    .map(|i| first + i),
-            );
+        let any_far = chunk.iter().fold(false, |any, &v| any | far(v));
+        if any_far || chunk.iter().fold(false, |any, &v| any | finer(v, decimals)) {
+            for (i, &v) in chunk.iter().enumerate() {
+                if far(v) {
+                    implausible.push(c * CHUNK + i);
+                } else if finer(v, decimals) {
+                    decimals = decimal_places(v);
+                }
+            }
         }
     }
     let out = |r: usize| !implausible.is_empty() && implausible.binary_search(&r).is_ok();
@@ -275,16 +281,6 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
             seen.push(v);
         }
     }
-    // Most values have no more decimals than the finest seen so far: a tight search for the
-    // next one that has more, which alone updates the count.
-    let mut decimals = 0u32;
-    let mut from = 0;
-    while let Some(r) = next_with_more_decimals(values, from, decimals) {
-        if !out(r) {
-            decimals = decimals.max(decimal_places(values[r]));
-        }
-        from = r + 1;
-    }
     let resolution = (!seen.is_empty()).then(|| 10f64.powi(-(decimals as i32)));
     FeatureCheck {
         implausible,
@@ -294,22 +290,8 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
     }
 }
 
-/// Values tested at a time by the audit's scans.
+/// Values tested at a time by the audit's scan.
 const CHUNK: usize = 16;
-
-/// The first row from `from` on whose value (not NaN) has more than `k` decimal places. Each
-/// chunk is tested whole, which vectorises; only the chunk that holds one is searched.
-fn next_with_more_decimals(values: &[f64], from: usize, k: u32) -> Option<usize> {
-    // `&` not `&&`: no branch in the chunk's test.
-    let finer = |v: f64| !v.is_nan() & !has_at_most(v, k);
-    let rest = values.get(from..)?;
-    let (c, chunk) = rest
-        .chunks(CHUNK)
-        .enumerate()
-        .find(|(_, chunk)| chunk.iter().fold(false, |any, &v| any | finer(v)))?;
-    let at = chunk.iter().position(|&v| finer(v))?;
-    Some(from + c * CHUNK + at)
-}
 
 /// Whether `v` has at most `k` decimal places (the test of [`decimal_places`] at k).
 fn has_at_most(v: f64, k: u32) -> bool {
