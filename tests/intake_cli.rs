@@ -611,7 +611,7 @@ fn a_large_file_reads_the_same_across_blocks_pieces_and_both_parsers() {
         }
         // Quotes in the first block and again in the last (which is read while the one
         // before it is parsed).
-        let id = if i < 2000 || i >= 448_000 {
+        let id = if !(2000..448_000).contains(&i) {
             format!("\"P{i:06}\"")
         } else {
             format!("P{i:06}")
