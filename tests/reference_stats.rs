@@ -52,6 +52,19 @@ fn strd_means_sds_and_autocorrelations_reach_their_certified_values() {
     }
 }
 
+#[test]
+fn numacc4_repeated_keeps_its_certified_mean_and_spread() {
+    // NIST StRD NumAcc4 (certified mean 10000000.2, sd 0.1, n = 1001) repeated 1000 times:
+    // the hardest set at the size of a production file (the lanes' sums run a thousand
+    // times longer). Same mean; the sum of squares grows 1000-fold, so
+    // sd = 0.1·√(1000·1000 / (1001000 − 1)). Tolerances as for NumAcc4 itself.
+    let x = column("strd_numacc4.csv");
+    let repeated: Vec<f64> = (0..1000).flat_map(|_| x.iter().copied()).collect();
+    let m = moments(&repeated);
+    close(m.mean, 10000000.2, 1e-12, "mean");
+    close(m.sd, 0.1 * (1e6f64 / 1_000_999.0).sqrt(), 1e-7, "sd");
+}
+
 // ---- Skewness and kurtosis: scipy 1.17.1 stats.skew / stats.kurtosis with bias=False ----
 
 #[test]
