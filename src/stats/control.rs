@@ -253,29 +253,25 @@ fn most_common_size(groups: &[&Vec<f64>]) -> usize {
 /// Every signal of the chosen tests on a chart: the Nelson tests on the location chart, and
 /// points above the upper limit of the dispersion chart (reported as test 1 there).
 pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
-    let z: Vec<f64> = chart
-        .location_points
-        .iter()
-        .enumerate()
-        .map(|(i, x)| {
-            let s = chart.sigma_at(i);
-            if s > 0.0 {
-                (x - chart.location.centre) / s
-            } else {
-                0.0
-            }
-        })
-        .collect();
     if chart.location_sigma.iter().all(|s| *s <= 0.0) {
         return Vec::new();
     }
-    let mut out: Vec<Signal> = nelson(&z, rules)
+    let (x, centre) = (&chart.location_points, chart.location.centre);
+    let z = |i: usize| {
+        let s = chart.sigma_at(i);
+        if s > 0.0 {
+            (x[i] - centre) / s
+        } else {
+            0.0
+        }
+    };
+    let mut out: Vec<Signal> = nelson_by(x.len(), z, rules)
         .into_iter()
         .map(|(point, rule)| Signal {
             point,
             rule,
             chart: "location",
-            value: chart.location_points[point],
+            value: x[point],
         })
         .collect();
     if rules.contains(&1) {
@@ -302,6 +298,12 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
 /// itself shifted by 1 … k − 1, the previous word supplying the bits shifted in. No branch
 /// depends on the data, which a stable process makes a coin toss.
 pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
+    nelson_by(z.len(), |i| z[i], rules)
+}
+
+/// [`nelson`] on the `n` points `z(0)`, `z(1)`, …, computed a word at a time (a chart of a
+/// million points needs no vector of its standardised values).
+fn nelson_by(n: usize, z: impl Fn(usize) -> f64, rules: &[u8]) -> Vec<(usize, u8)> {
     let mut on = [false; 9];
     for &r in rules {
         if let Some(slot) = on.get_mut(r as usize) {
@@ -311,10 +313,16 @@ pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
     let zones = on[5] || on[6] || on[7] || on[8];
     let mut out = Vec::new();
     let mut prev = Masks::default();
-    for (w, chunk) in z.chunks(64).enumerate() {
+    let mut word = [0.0; 64];
+    let mut before = None;
+    for w in 0..n.div_ceil(64) {
         let first = w * 64;
-        let before = first.checked_sub(1).map(|i| z[i]);
+        let chunk = &mut word[..(n - first).min(64)];
+        for (j, slot) in chunk.iter_mut().enumerate() {
+            *slot = z(first + j);
+        }
         let m = Masks::of(chunk, before, zones);
+        before = chunk.last().copied();
         // Bits of points too early for a window of k points (the first word only).
         let early = |k: u32| if w == 0 { (1u64 << (k - 1)) - 1 } else { 0 };
         let mut found = [0u64; 9];
