@@ -106,10 +106,12 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
                 let rows: Vec<usize> = (0..ds.rows())
                     .filter(|&r| !ds.features[fi].values[r].is_nan())
                     .collect();
+                let file_names: Vec<std::sync::Arc<str>> =
+                    ds.files.iter().map(|f| f.as_str().into()).collect();
                 let locate = |point: usize| {
                     let r = rows[point];
                     (
-                        Some(ds.files[ds.row_file[r] as usize].clone()),
+                        Some(file_names[ds.row_file[r] as usize].clone()),
                         Some(ds.value_line(fi, r)),
                         ds.part_ids.get(r).map(str::to_string),
                     )

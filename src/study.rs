@@ -11,6 +11,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 use std::borrow::Cow;
 use std::collections::BTreeMap;
+use std::sync::Arc;
 
 /// How the study orders, groups and judges the values.
 #[derive(Debug, Clone)]
@@ -133,8 +134,9 @@ pub struct SignalAt {
     #[serde(flatten)]
     pub signal: Signal,
     pub description: &'static str,
-    /// File, physical line and part of the value (individuals charts).
-    pub file: Option<String>,
+    /// File, physical line and part of the value (individuals charts). The file's name is
+    /// shared by all its signals.
+    pub file: Option<Arc<str>>,
     pub line: Option<u64>,
     pub part: Option<String>,
 }
@@ -228,6 +230,7 @@ pub fn study(
         .iter()
         .map(|(_, rows)| rows.len() == data.rows() && rows.iter().enumerate().all(|(i, &r)| i == r))
         .collect();
+    let file_names: Vec<Arc<str>> = data.files.iter().map(|f| Arc::from(f.as_str())).collect();
     let mut jobs = Vec::new();
     for f in 0..data.features.len() {
         for ((g, rows), &whole) in groups.iter().zip(&whole) {
@@ -305,7 +308,7 @@ pub fn study(
             let locate = |point: usize| {
                 let r = row_of(point);
                 (
-                    Some(data.files[data.row_file[r] as usize].clone()),
+                    Some(file_names[data.row_file[r] as usize].clone()),
                     Some(data.value_line(f, r)),
                     data.part_ids.get(r).map(str::to_string),
                 )
@@ -668,7 +671,7 @@ fn poisson_at_least(k: usize, lambda: f64) -> f64 {
 }
 
 /// Where a point of an individuals chart came from: file, physical line, part.
-pub type Locate<'a> = dyn Fn(usize) -> (Option<String>, Option<u64>, Option<String>) + 'a;
+pub type Locate<'a> = dyn Fn(usize) -> (Option<Arc<str>>, Option<u64>, Option<String>) + 'a;
 
 /// The chart's signals under the chosen tests, each placed in its file for individuals charts.
 pub fn build_stability(chart: Chart, rules: &[u8], individual: bool, locate: &Locate) -> Stability {
