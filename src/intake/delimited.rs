@@ -679,7 +679,7 @@ fn parse_plain_with(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut
             continue;
         }
         let row = piece.start_row(line);
-        let cells = cell_ends(rec, delimiter, &mut ends);
+        let cells = cell_ends(s, rec_start, rec_start + rec.len(), delimiter, &mut ends);
         let mut from = 0;
         for (c, &to) in ends[..cells].iter().enumerate() {
             let plain = if c < ncol && !ctx.keep[c] {
@@ -700,37 +700,44 @@ fn parse_plain_with(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut
     }
 }
 
-/// Where each cell of `rec` ends: the delimiters' positions, then `rec.len()`, written to
-/// the front of `ends` (grown as needed); returns how many.
+/// Where each cell of the record `s[start..end]` ends, counted from `start`: the delimiters'
+/// positions, then the record's length, written to the front of `ends` (grown as needed);
+/// returns how many.
 #[inline(always)]
-fn cell_ends(rec: &[u8], delimiter: u8, ends: &mut Vec<usize>) -> usize {
+fn cell_ends(s: &[u8], start: usize, end: usize, delimiter: u8, ends: &mut Vec<usize>) -> usize {
+    let len = end - start;
     // Room for a delimiter at every byte, plus the unconditional writes below.
-    if ends.len() < rec.len() + 20 {
-        ends.resize(rec.len() + 20, 0);
+    if ends.len() < len + 20 {
+        ends.resize(len + 20, 0);
     }
     let mut n = 0;
-    let mut i = 0;
+    let mut i = start;
     #[cfg(target_arch = "x86_64")]
     {
         use std::arch::x86_64::*;
-        // SAFETY: SSE2 is part of the x86-64 baseline; each load reads the 16 bytes of `rec`
-        // at i, and i + 16 <= rec.len().
+        // SAFETY: SSE2 is part of the x86-64 baseline; each load reads the 16 bytes of `s` at
+        // i, and i + 16 <= s.len(). The last chunk may run past the record's end (into the
+        // next line): its bits from there on are masked off.
         let d = unsafe { _mm_set1_epi8(delimiter as i8) };
-        while i + 16 <= rec.len() {
+        while i < end && i + 16 <= s.len() {
             let mut m = unsafe {
-                let bytes = _mm_loadu_si128(rec.as_ptr().add(i).cast());
+                let bytes = _mm_loadu_si128(s.as_ptr().add(i).cast());
                 _mm_movemask_epi8(_mm_cmpeq_epi8(bytes, d)) as u32
             };
+            if end - i < 16 {
+                m &= (1 << (end - i)) - 1;
+            }
             let count = m.count_ones() as usize;
+            let at = i - start;
             // Cells are rarely under four bytes: four writes without a branch per bit (the
             // ones past `count` are overwritten later), then any more one by one.
             for j in 0..4 {
-                ends[n + j] = i + m.trailing_zeros() as usize;
+                ends[n + j] = at + m.trailing_zeros() as usize;
                 m &= m.wrapping_sub(1);
             }
             let mut j = 4;
             while m != 0 {
-                ends[n + j] = i + m.trailing_zeros() as usize;
+                ends[n + j] = at + m.trailing_zeros() as usize;
                 m &= m - 1;
                 j += 1;
             }
@@ -738,13 +745,14 @@ fn cell_ends(rec: &[u8], delimiter: u8, ends: &mut Vec<usize>) -> usize {
             i += 16;
         }
     }
-    for (k, &b) in rec.iter().enumerate().skip(i) {
+    // The bytes the chunks left (all of them elsewhere than on x86-64).
+    for (k, &b) in s.get(i..end).unwrap_or_default().iter().enumerate() {
         if b == delimiter {
-            ends[n] = k;
+            ends[n] = i - start + k;
             n += 1;
         }
     }
-    ends[n] = rec.len();
+    ends[n] = len;
     n + 1
 }
 
