@@ -446,6 +446,7 @@ struct PieceRest {
     decimal_comma_used: bool,
 }
 
+/// Whether `s` holds a quote character (then records are cut and parsed by the csv rules).
 fn has_quote(s: &[u8]) -> bool {
     memchr::memchr(b'"', s).is_some()
 }
