@@ -53,7 +53,7 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
     write(
         &args.out,
         "capability.json",
-        &capability.json().unwrap_or_default(),
+        &json_of(&capability)?,
         &mut written,
     )?;
     write(&args.out, "capability.csv", &capability.csv(), &mut written)?;
@@ -90,23 +90,13 @@ pub fn run(args: &DemoArgs) -> anyhow::Result<Outcome> {
     let report =
         super::stack::full_report(&model, Some(&simulation), DEFAULT_REPLICATES, DEFAULT_SEED);
     write(&args.out, "stack.txt", &report.table(false), &mut written)?;
-    write(
-        &args.out,
-        "stack.json",
-        &report.json().unwrap_or_default(),
-        &mut written,
-    )?;
+    write(&args.out, "stack.json", &json_of(&report)?, &mut written)?;
     let plan = PlanReport {
         plan: crate::stack::plan::plan(&model, 100.0, 1.33, 0.95),
         safety_factors: safety_factor_table(),
     };
     write(&args.out, "plan.txt", &plan.table(false), &mut written)?;
-    write(
-        &args.out,
-        "plan.json",
-        &plan.json().unwrap_or_default(),
-        &mut written,
-    )?;
+    write(&args.out, "plan.json", &json_of(&plan)?, &mut written)?;
 
     let stack_path = data_dir.join("end_play.toml").display().to_string();
     let html = Report {
@@ -168,6 +158,13 @@ fn grouped(
         0.95,
         DEFAULT_ALPHA,
     ))
+}
+
+/// A result's JSON; a failure to serialise is an error, not an empty file.
+fn json_of(result: &dyn Render) -> Result<String, InputError> {
+    result
+        .json()
+        .map_err(|e| InputError::new(format!("cannot write the JSON: {e}")))
 }
 
 fn write(dir: &Path, name: &str, text: &str, written: &mut Vec<String>) -> Result<(), InputError> {
