@@ -9,7 +9,7 @@ use crate::stack::model::{ContributorModel, PartGroup, StackModel};
 use crate::stats::capability::{capability, CapabilityOptions, Limits};
 use crate::stats::moments::pairwise_covariance;
 use crate::stats::within::WithinMethod;
-use crate::study::{build_stability, chart_for, model_for, StudySettings};
+use crate::study::{model_for, stability_for, StudySettings};
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
@@ -116,8 +116,14 @@ pub fn build_model(stack: &StackFile, data: &StackData) -> Result<StackModel, In
                         ds.part_ids.get(r).map(str::to_string),
                     )
                 };
-                let stability = chart_for(&values, None, WithinMethod::MovingRange, chosen)
-                    .map(|chart| build_stability(chart, &settings.rules, true, &locate));
+                let stability = stability_for(
+                    &values,
+                    None,
+                    WithinMethod::MovingRange,
+                    chosen,
+                    &settings,
+                    &locate,
+                );
                 contributors.push(ContributorModel {
                     name: c.name.clone(),
                     sensitivity: c.sensitivity,

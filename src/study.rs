@@ -303,8 +303,6 @@ pub fn study(
             let chosen = model
                 .as_ref()
                 .and_then(|m| models.iter().find(|f| f.name == m.name));
-            let chart = chart_for(&values, subgroups.as_deref(), options.within, chosen);
-            let individual = subgroups.is_none();
             let locate = |point: usize| {
                 let r = row_of(point);
                 (
@@ -313,13 +311,14 @@ pub fn study(
                     data.part_ids.get(r).map(str::to_string),
                 )
             };
-            let mut stability =
-                chart.map(|chart| build_stability(chart, &settings.rules, individual, &locate));
-            if !settings.keep_points {
-                if let Some(s) = stability.as_mut() {
-                    s.chart.free_points();
-                }
-            }
+            let stability = stability_for(
+                &values,
+                subgroups.as_deref(),
+                options.within,
+                chosen,
+                settings,
+                &locate,
+            );
             let values = if settings.keep_points || settings.by.is_some() {
                 values.into_owned()
             } else {
@@ -673,9 +672,53 @@ fn poisson_at_least(k: usize, lambda: f64) -> f64 {
 /// Where a point of an individuals chart came from: file, physical line, part.
 pub type Locate<'a> = dyn Fn(usize) -> (Option<Arc<str>>, Option<u64>, Option<String>) + 'a;
 
-/// The chart's signals under the chosen tests, each placed in its file for individuals charts.
-pub fn build_stability(chart: Chart, rules: &[u8], individual: bool, locate: &Locate) -> Stability {
+/// The control chart of a feature (see [`chart_for`]) and its signals under `settings.rules`,
+/// each placed in its file for individuals charts. The chart keeps its points only under
+/// `settings.keep_points`; without them an individuals chart of the normal model is tested on
+/// the values themselves, not on copies.
+pub fn stability_for(
+    values: &[f64],
+    subgroups: Option<&[Vec<f64>]>,
+    within: WithinMethod,
+    model: Option<&FittedModel>,
+    settings: &StudySettings,
+    locate: &Locate,
+) -> Option<Stability> {
+    let rules = &settings.rules;
+    let individual = subgroups.is_none();
+    let on_values = individual && model.is_none_or(|m| m.name == "normal");
+    if on_values && !settings.keep_points {
+        let chart = control::individuals_limits(values)?;
+        let found = control::individuals_signals(values, &chart, rules);
+        return Some(build_stability(
+            chart,
+            found,
+            values.len(),
+            rules,
+            individual,
+            locate,
+        ));
+    }
+    let mut chart = chart_for(values, subgroups, within, model)?;
     let found = chart_signals(&chart, rules);
+    let points = chart.location_points.len();
+    if !settings.keep_points {
+        chart.free_points();
+    }
+    Some(build_stability(
+        chart, found, points, rules, individual, locate,
+    ))
+}
+
+/// The stability verdict of a chart of `points` points on which `found` signalled.
+fn build_stability(
+    chart: Chart,
+    found: Vec<Signal>,
+    points: usize,
+    rules: &[u8],
+    individual: bool,
+    locate: &Locate,
+) -> Stability {
     let signal_count = found.len();
     // Only the listed signals are placed in their files (a long chart has thousands).
     let signals: Vec<SignalAt> = found
@@ -700,10 +743,10 @@ pub fn build_stability(chart: Chart, rules: &[u8], individual: bool, locate: &Lo
             }
         })
         .collect();
-    let expected = control::expected_by_chance(chart.location_points.len(), rules, individual);
+    let expected = control::expected_by_chance(points, rules, individual);
     let chance_p = poisson_at_least(signal_count, expected);
     Stability {
-        points: chart.location_points.len(),
+        points,
         expected_by_chance: expected,
         rules: rules.to_vec(),
         stable: chance_p >= CHANCE_ALPHA,

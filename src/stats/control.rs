@@ -136,12 +136,20 @@ pub struct Signal {
 
 /// I-MR chart: CL = x̄, σ = MR̄/d2(2), limits CL ± 3σ; MR chart UCL = D4(2)·MR̄, LCL = 0.
 pub fn individuals(x: &[f64]) -> Option<Chart> {
+    let mut chart = individuals_limits(x)?;
+    chart.location_points = x.to_vec();
+    chart.dispersion_points = x.windows(2).map(|w| (w[1] - w[0]).abs()).collect();
+    Some(chart)
+}
+
+/// [`individuals`] without its points, for a chart nobody draws: [`individuals_signals`] tests
+/// the values against its limits, and no copy of them is made.
+pub fn individuals_limits(x: &[f64]) -> Option<Chart> {
     if x.len() < 3 {
         return None;
     }
     let centre = super::moments::sum_of(x, |v| v) / x.len() as f64;
-    let mr: Vec<f64> = x.windows(2).map(|w| (w[1] - w[0]).abs()).collect();
-    let mr_bar = super::moments::sum_of(&mr, |v| v) / mr.len() as f64;
+    let mr_bar = super::within::mean_moving_range(x);
     let sigma = mr_bar / d2(2);
     let f = chart_factors(2);
     Some(Chart {
@@ -157,10 +165,10 @@ pub fn individuals(x: &[f64]) -> Option<Chart> {
             lcl: 0.0,
             ucl: f.d4_upper * mr_bar,
         },
-        location_points: x.to_vec(),
+        location_points: Vec::new(),
         location_sigma: vec![sigma],
         dispersion_ucl: vec![f.d4_upper * mr_bar],
-        dispersion_points: mr,
+        dispersion_points: Vec::new(),
         scores: None,
     })
 }
@@ -253,6 +261,14 @@ fn most_common_size(groups: &[&Vec<f64>]) -> usize {
 /// Every signal of the chosen tests on a chart: the Nelson tests on the location chart, and
 /// points above the upper limit of the dispersion chart (reported as test 1 there).
 pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
+    if chart.kind == "individuals" {
+        return individuals_signals(&chart.location_points, chart, rules);
+    }
+    signals_point_by_point_sigma(chart, rules)
+}
+
+/// [`signals`] for any chart, each point standardised by its own sigma.
+fn signals_point_by_point_sigma(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
     if chart.location_sigma.iter().all(|s| *s <= 0.0) {
         return Vec::new();
     }
@@ -265,15 +281,12 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
             0.0
         }
     };
-    let mut out: Vec<Signal> = nelson_by(x.len(), z, rules)
-        .into_iter()
-        .map(|(point, rule)| Signal {
-            point,
-            rule,
-            chart: "location",
-            value: x[point],
-        })
-        .collect();
+    let fill = |first: usize, word: &mut [f64]| {
+        for (j, slot) in word.iter_mut().enumerate() {
+            *slot = z(first + j);
+        }
+    };
+    let mut out = location_signals(x, fill, rules);
     if rules.contains(&1) {
         // Moving range k belongs to value k + 1.
         let offset = usize::from(chart.kind.starts_with("individuals"));
@@ -291,6 +304,64 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
     out
 }
 
+/// The signals of values `x` on an individuals chart with the limits of `chart` (one sigma
+/// for all points; moving ranges of `x` on the dispersion chart): [`signals`] without the
+/// chart's copies of the values and their moving ranges.
+pub fn individuals_signals(x: &[f64], chart: &Chart, rules: &[u8]) -> Vec<Signal> {
+    let sigma = chart.sigma_at(0);
+    // As in the general path: no spread, no signal (NaN included).
+    if sigma.is_nan() || sigma <= 0.0 {
+        return Vec::new();
+    }
+    let centre = chart.location.centre;
+    let fill = |first: usize, word: &mut [f64]| {
+        for (z, &v) in word.iter_mut().zip(&x[first..]) {
+            *z = (v - centre) / sigma;
+        }
+    };
+    let mut out = location_signals(x, fill, rules);
+    if rules.contains(&1) {
+        let ucl = chart.ucl_at(0);
+        let range = |i: usize| (x[i] - x[i - 1]).abs();
+        // Chunks are tested whole (the test vectorises), point by point only when one holds
+        // a signal.
+        const CHUNK: usize = 16;
+        for start in (1..x.len()).step_by(CHUNK) {
+            let end = (start + CHUNK).min(x.len());
+            let (before, after) = (&x[start - 1..end - 1], &x[start..end]);
+            let any = before
+                .iter()
+                .zip(after)
+                .fold(false, |any, (p, v)| any | ((v - p).abs() > ucl));
+            if any {
+                for i in (start..end).filter(|&i| range(i) > ucl) {
+                    out.push(Signal {
+                        point: i,
+                        rule: 1,
+                        chart: "dispersion",
+                        value: range(i),
+                    });
+                }
+            }
+        }
+    }
+    out
+}
+
+/// The Nelson tests' signals on the location points `x`, `fill(first, word)` writing the
+/// standardised points `first..first + word.len()`.
+fn location_signals(x: &[f64], fill: impl Fn(usize, &mut [f64]), rules: &[u8]) -> Vec<Signal> {
+    nelson_by(x.len(), fill, rules)
+        .into_iter()
+        .map(|(point, rule)| Signal {
+            point,
+            rule,
+            chart: "location",
+            value: x[point],
+        })
+        .collect()
+}
+
 /// The Nelson tests on standardised points: (point, rule) for every signal, by point then rule.
 ///
 /// The points are read 64 at a time into bit masks (above, below, rising, falling, beyond a
@@ -298,12 +369,17 @@ pub fn signals(chart: &Chart, rules: &[u8]) -> Vec<Signal> {
 /// itself shifted by 1 … k − 1, the previous word supplying the bits shifted in. No branch
 /// depends on the data, which a stable process makes a coin toss.
 pub fn nelson(z: &[f64], rules: &[u8]) -> Vec<(usize, u8)> {
-    nelson_by(z.len(), |i| z[i], rules)
+    nelson_by(
+        z.len(),
+        |first, word| word.copy_from_slice(&z[first..first + word.len()]),
+        rules,
+    )
 }
 
-/// [`nelson`] on the `n` points `z(0)`, `z(1)`, …, computed a word at a time (a chart of a
-/// million points needs no vector of its standardised values).
-fn nelson_by(n: usize, z: impl Fn(usize) -> f64, rules: &[u8]) -> Vec<(usize, u8)> {
+/// [`nelson`] on `n` points standardised a word at a time by `fill(first, word)`, which
+/// writes points `first..first + word.len()` (a chart of a million points needs no vector of
+/// its standardised values).
+fn nelson_by(n: usize, fill: impl Fn(usize, &mut [f64]), rules: &[u8]) -> Vec<(usize, u8)> {
     let mut on = [false; 9];
     for &r in rules {
         if let Some(slot) = on.get_mut(r as usize) {
@@ -318,9 +394,7 @@ fn nelson_by(n: usize, z: impl Fn(usize) -> f64, rules: &[u8]) -> Vec<(usize, u8
     for w in 0..n.div_ceil(64) {
         let first = w * 64;
         let chunk = &mut word[..(n - first).min(64)];
-        for (j, slot) in chunk.iter_mut().enumerate() {
-            *slot = z(first + j);
-        }
+        fill(first, chunk);
         let m = Masks::of(chunk, before, zones);
         before = chunk.last().copied();
         // Bits of points too early for a window of k points (the first word only).
@@ -595,6 +669,38 @@ mod tests {
                 (a.above, a.below, a.rising, a.falling, a.beyond, a.beyond_up, a.beyond_down, a.within1),
                 (b.above, b.below, b.rising, b.falling, b.beyond, b.beyond_up, b.beyond_down, b.within1)
             );
+        }
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(200))]
+        /// The individuals chart's own path (one sigma, moving ranges from the values, no copies)
+        /// finds exactly the signals of the general point-by-point-sigma path, in the same order,
+        /// and its limits are those of the chart with points.
+        #[test]
+        fn individuals_path_agrees_with_the_general_path(
+            z in points(),
+            spikes in prop::collection::vec((0usize..400, -30.0f64..30.0), 0..20),
+            all_rules in any::<bool>(),
+        ) {
+            let mut x: Vec<f64> = z.iter().map(|v| 10.0 + 0.01 * v).collect();
+            for (i, jump) in spikes {
+                if let Some(v) = x.get_mut(i) {
+                    *v += 0.01 * jump;
+                }
+            }
+            let rules: &[u8] = if all_rules { &[1, 2, 3, 4, 5, 6, 7, 8] } else { &DEFAULT_RULES };
+            let (Some(with_points), Some(limits)) = (individuals(&x), individuals_limits(&x)) else {
+                prop_assert!(x.len() < 3);
+                return Ok(());
+            };
+            prop_assert_eq!(
+                (with_points.location, with_points.dispersion, &with_points.location_sigma, &with_points.dispersion_ucl),
+                (limits.location, limits.dispersion, &limits.location_sigma, &limits.dispersion_ucl)
+            );
+            let general = signals_point_by_point_sigma(&with_points, rules);
+            prop_assert_eq!(&individuals_signals(&x, &limits, rules), &general);
+            prop_assert_eq!(&signals(&with_points, rules), &general);
         }
     }
 

@@ -103,6 +103,26 @@ pub fn moments(x: &[f64]) -> Moments {
     }
 }
 
+/// Σ f(xᵢ₋₁, xᵢ) over consecutive values, in the lanes of [`sum_of`] (lane j takes the pairs
+/// whose index is j mod 4): the same number as [`sum_of`] over a vector of the f values.
+pub fn sum_of_steps(x: &[f64], f: impl Fn(f64, f64) -> f64) -> f64 {
+    if x.len() < 2 {
+        return 0.0;
+    }
+    let (before, after) = (&x[..x.len() - 1], &x[1..]);
+    let mut lanes = [0.0; 4];
+    let (mut b4, mut a4) = (before.chunks_exact(4), after.chunks_exact(4));
+    for (b, a) in (&mut b4).zip(&mut a4) {
+        for j in 0..4 {
+            lanes[j] += f(b[j], a[j]);
+        }
+    }
+    for (&b, &a) in b4.remainder().iter().zip(a4.remainder()) {
+        lanes[0] += f(b, a);
+    }
+    (lanes[0] + lanes[1]) + (lanes[2] + lanes[3])
+}
+
 /// Σ f(xᵢ) in four interleaved lanes (independent additions; see [`moments`]).
 pub fn sum_of(x: &[f64], f: impl Fn(f64) -> f64) -> f64 {
     let mut lanes = [0.0; 4];

@@ -37,9 +37,9 @@ pub fn moving_range_sigma(x: &[f64]) -> f64 {
     mean_moving_range(x) / d2(2)
 }
 
-/// MR̄, the mean moving range of span 2.
+/// MR̄, the mean moving range of span 2 (summed in lanes: the I-MR chart's MR̄ is this number).
 pub fn mean_moving_range(x: &[f64]) -> f64 {
-    x.windows(2).map(|w| (w[1] - w[0]).abs()).sum::<f64>() / (x.len() - 1) as f64
+    super::moments::sum_of_steps(x, |before, v| (v - before).abs()) / (x.len() - 1) as f64
 }
 
 /// Within sigma from subgroups (each a slice of values); subgroups of one value carry no
