@@ -24,8 +24,10 @@ pub struct AndersonDarling {
 }
 
 /// Above this many distinct values the Anderson–Darling sum uses the interpolated ln Φ
-/// ([`normal::ln_cdf_fast`]); up to it every term is computed from erfc.
-pub const EXACT_AD_N: usize = 4096;
+/// ([`normal::ln_cdf_fast`]); up to it every term is computed from erfc (about 40 ns each).
+/// The interpolation moves A² by at most about n·4·10⁻¹² (its error on ln Φ is below 2·10⁻¹²,
+/// and A² sums it with weights adding up to 2n): below 10⁻⁶ up to a million values.
+pub const EXACT_AD_N: usize = 1024;
 
 /// Largest n for which Royston's approximation of the null distribution was fitted.
 pub const SHAPIRO_WILK_MAX_N: usize = 5000;
