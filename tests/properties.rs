@@ -170,6 +170,36 @@ proptest! {
 }
 
 proptest! {
+    /// Runs counted on the decimal grid are the runs of the sorted sample: on the grid (values
+    /// parsed from text with 0–5 decimals, as a file holds them), one ulp off a grid value (two
+    /// numbers on one grid point), and off the grid.
+    #[test]
+    fn runs_on_the_grid_are_the_runs_of_the_sorted_sample(
+        grid in prop::collection::vec(-5_000i64..5_000, 1024..3000),
+        decimals in 0usize..6,
+        centre in -1000.0f64..1000.0,
+        nudged in prop::collection::vec(0usize..1024, 0..2),
+        off_grid in prop::collection::vec((0usize..1024, -1e-3f64..1e-3), 0..2),
+    ) {
+        use capstack::stats::moments::Runs;
+        let step = 10f64.powi(-(decimals as i32));
+        let mut x: Vec<f64> = grid
+            .iter()
+            .map(|&k| format!("{:.*}", decimals, centre.round() + k as f64 * step).parse().unwrap())
+            .collect();
+        for i in nudged {
+            x[i] = f64::from_bits(x[i].to_bits() + 1);
+        }
+        for (i, d) in off_grid {
+            x[i] += d;
+        }
+        let mut sorted = x.clone();
+        sorted.sort_by(f64::total_cmp);
+        prop_assert_eq!(Runs::of(&x), Runs::from_sorted(&sorted));
+    }
+}
+
+proptest! {
     /// Sorting by the decimal grid or by comparison gives the values in `total_cmp` order,
     /// each exactly once, on and off the grid.
     #[test]

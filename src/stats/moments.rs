@@ -287,12 +287,23 @@ fn runs_on_grid(x: &[f64], min: f64, max: f64) -> Option<Runs> {
     if points > 4 * n {
         return None;
     }
-    let mut counts = vec![0usize; points];
+    // u32 counts keep the two tables within the first-level cache for thousands of points.
+    if u32::try_from(n).is_err() {
+        return None;
+    }
+    let mut counts = vec![0u32; points];
     let mut values = vec![f64::NAN; points];
-    let last = points as i64 - 1;
+    let last = points - 1;
+    // Adding 2⁵² rounds a t in [0, 2⁵¹) to the nearest integer, which is then the low bits of
+    // the sum: no saturating float-to-integer conversion (several instructions) per value. A
+    // value below `min` wraps to the last point, where the checks below reject it.
+    const ROUNDER: f64 = (1u64 << 52) as f64;
     for &v in x {
-        // Through i64 (one conversion instruction; the usize one takes several), clamped.
-        let b = (((v - min) * per_step + 0.5) as i64).clamp(0, last) as usize;
+        let t = (v - min) * per_step;
+        let b = (t + ROUNDER)
+            .to_bits()
+            .wrapping_sub(ROUNDER.to_bits())
+            .min(last as u64) as usize;
         if counts[b] == 0 {
             values[b] = v;
         } else if values[b] != v {
@@ -304,7 +315,7 @@ fn runs_on_grid(x: &[f64], min: f64, max: f64) -> Option<Runs> {
     for (v, c) in values.into_iter().zip(counts) {
         if c > 0 {
             runs.values.push(v);
-            runs.counts.push(c);
+            runs.counts.push(c as usize);
         }
     }
     // Grid points are in order; so must the values be.
