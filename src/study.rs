@@ -259,25 +259,24 @@ pub fn study(
                 .collect();
             // The rows with a value (None: all of them, in file order), their values, and the
             // rows of files that have this feature but no value for it (missing).
-            let (values, used_rows, missing) =
-                if whole && !feature.values.iter().any(|v| v.is_nan()) {
-                    (Cow::Borrowed(feature.values.as_slice()), None, 0)
-                } else {
-                    let mut used_rows = Vec::with_capacity(rows.len());
-                    let mut values = Vec::with_capacity(rows.len());
-                    let mut missing = 0u64;
-                    for &r in rows.iter() {
-                        let v = feature.values[r];
-                        if v.is_nan() {
-                            let file = data.row_file[r] as usize;
-                            missing += u64::from(files_with.get(file).copied().unwrap_or(false));
-                        } else {
-                            used_rows.push(r);
-                            values.push(v);
-                        }
+            let (values, used_rows, missing) = if whole && !has_nan(&feature.values) {
+                (Cow::Borrowed(feature.values.as_slice()), None, 0)
+            } else {
+                let mut used_rows = Vec::with_capacity(rows.len());
+                let mut values = Vec::with_capacity(rows.len());
+                let mut missing = 0u64;
+                for &r in rows.iter() {
+                    let v = feature.values[r];
+                    if v.is_nan() {
+                        let file = data.row_file[r] as usize;
+                        missing += u64::from(files_with.get(file).copied().unwrap_or(false));
+                    } else {
+                        used_rows.push(r);
+                        values.push(v);
                     }
-                    (Cow::Owned(values), Some(used_rows), missing)
-                };
+                }
+                (Cow::Owned(values), Some(used_rows), missing)
+            };
             let row_of = |point: usize| used_rows.as_ref().map_or(point, |rows| rows[point]);
             let subgroups = match &settings.subgroups {
                 Subgrouping::Individuals => None,
@@ -371,6 +370,14 @@ fn flags_for(
         flags.push("resolution".to_string());
     }
     flags
+}
+
+/// Whether any value is NaN, a chunk at a time (each chunk tested whole, so the test
+/// vectorises).
+fn has_nan(values: &[f64]) -> bool {
+    values
+        .chunks(64)
+        .any(|c| c.iter().fold(false, |any, v| any | v.is_nan()))
 }
 
 /// The model for one feature: under `auto`, normal while neither normality test rejects (only

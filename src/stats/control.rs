@@ -456,7 +456,12 @@ impl Masks {
     fn of(chunk: &[f64], before: Option<f64>, zones: bool) -> Self {
         #[cfg(target_arch = "x86_64")]
         if let Ok(word) = <&[f64; 64]>::try_from(chunk) {
-            return Self::of_word_sse2(word, before, zones);
+            // The zone test outside the loop (it was not hoisted out of it).
+            return if zones {
+                Self::of_word_sse2::<true>(word, before)
+            } else {
+                Self::of_word_sse2::<false>(word, before)
+            };
         }
         Self::of_points(chunk, before, zones)
     }
@@ -493,7 +498,7 @@ impl Masks {
     /// A whole word, two points per comparison: each comparison's sign bits are its mask
     /// bits (SSE2, which every x86-64 processor has).
     #[cfg(target_arch = "x86_64")]
-    fn of_word_sse2(word: &[f64; 64], before: Option<f64>, zones: bool) -> Self {
+    fn of_word_sse2<const ZONES: bool>(word: &[f64; 64], before: Option<f64>) -> Self {
         use std::arch::x86_64::*;
         let mut m = Masks::default();
         // SAFETY: SSE2 is part of the x86-64 baseline, so its instructions always exist; the
@@ -515,7 +520,7 @@ impl Masks {
                 m.rising |= bits(_mm_cmpgt_pd(step, _mm_setzero_pd()));
                 m.falling |= bits(_mm_cmplt_pd(step, _mm_setzero_pd()));
                 m.beyond[2] |= bits(_mm_cmpgt_pd(a, splat(3.0)));
-                if zones {
+                if ZONES {
                     m.beyond[0] |= bits(_mm_cmpgt_pd(a, splat(1.0)));
                     m.beyond[1] |= bits(_mm_cmpgt_pd(a, splat(2.0)));
                     m.beyond_up[0] |= bits(_mm_cmpgt_pd(v, splat(1.0)));
