@@ -374,6 +374,38 @@ fn rejects_a_file_that_is_not_utf8_naming_the_line() {
     assert!(e.contains("x.csv:3") && e.contains("UTF-8"), "{e}");
 }
 
+/// The plain parse checks for bytes above 0x7F as it scans, 16 bytes at a time: a bad byte
+/// in the middle of a long line deep in the file is still found and named by its line, and
+/// valid UTF-8 text (a part id with an umlaut) reads.
+#[test]
+fn finds_bad_utf8_deep_in_a_long_file_and_reads_good_utf8() {
+    let d = tempfile::tempdir().unwrap();
+    let row = |i: usize, id: &str| format!("{id}{i:05},{}\n", ["10.0012"; 12].join(","));
+    let header = format!(
+        "part,{}\n",
+        (0..12)
+            .map(|j| format!("f{j}"))
+            .collect::<Vec<_>>()
+            .join(",")
+    );
+    let mut good = header.clone();
+    let mut bad = header.into_bytes();
+    for i in 0..5000 {
+        good.push_str(&row(i, "Zürich-"));
+        let mut line = row(i, "P").into_bytes();
+        if i == 3000 {
+            line[40] = 0xFF;
+        }
+        bad.extend(line);
+    }
+    std::fs::write(d.path().join("good.csv"), good).unwrap();
+    std::fs::write(d.path().join("bad.csv"), bad).unwrap();
+    let json = json_of(d.path(), &["good.csv", "--id", "part"]);
+    assert_eq!(json["audit"]["rows_used"], 5000, "{json}");
+    let e = error_of(d.path(), &["capability", "bad.csv"]);
+    assert!(e.contains("bad.csv:3002") && e.contains("UTF-8"), "{e}");
+}
+
 #[test]
 fn rejects_a_file_without_a_feature_column() {
     let d = dir_with(&[("t.csv", "part,lot\nP1,A\nP2,B\n")]);

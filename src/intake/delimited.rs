@@ -612,10 +612,13 @@ fn parse_piece(
     mut piece: Piece,
     ctx: &ParseContext,
 ) -> Result<PieceRest> {
-    check_utf8(s, ctx.path, lines_before)?;
     if plain {
-        parse_plain(s, lines_before, ctx, &mut piece);
+        // The plain parse sees every byte: the text needs checking only when one is not ASCII.
+        if parse_plain(s, lines_before, ctx, &mut piece) {
+            check_utf8(s, ctx.path, lines_before)?;
+        }
     } else {
+        check_utf8(s, ctx.path, lines_before)?;
         parse_quoted(s, lines_before, ctx, &mut piece)?;
     }
     Ok(PieceRest {
@@ -631,7 +634,8 @@ fn parse_piece(
 /// the csv state machine. Each line's cell ends are found 16 bytes at a time, then a plain
 /// decimal is read from its cell ([`plain_decimal`]); any other cell (text, blanks, spaces,
 /// decimal commas, exponents) goes through [`Piece::cell`].
-fn parse_plain(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) {
+/// Returns whether a byte above 0x7F was seen.
+fn parse_plain(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) -> bool {
     #[cfg(target_arch = "x86_64")]
     if std::is_x86_feature_detected!("avx2")
         && std::is_x86_feature_detected!("bmi1")
@@ -640,32 +644,34 @@ fn parse_plain(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piec
         // SAFETY: the CPU has the features the function is compiled for, checked above.
         return unsafe { parse_plain_avx2(s, lines_before, ctx, piece) };
     }
-    parse_plain_with(s, lines_before, ctx, piece);
+    parse_plain_with(s, lines_before, ctx, piece)
 }
 
 /// [`parse_plain_with`] compiled for AVX2 processors (wider compares, single-instruction bit
 /// counts): the same steps, the same values.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2,bmi1,popcnt")]
-fn parse_plain_avx2(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) {
-    parse_plain_with(s, lines_before, ctx, piece);
+fn parse_plain_avx2(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) -> bool {
+    parse_plain_with(s, lines_before, ctx, piece)
 }
 
 #[inline(always)]
-fn parse_plain_with(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) {
+fn parse_plain_with(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) -> bool {
     let ncol = ctx.names.len();
     let delimiter = ctx.delimiter;
     let mut line = lines_before;
-    let mut start = 0;
     let mut ends = Vec::new();
-    let lines = memchr::memchr_iter(b'\n', s).chain((!s.ends_with(b"\n")).then_some(s.len()));
-    for end in lines {
+    let mut non_ascii = false;
+    let mut start = 0;
+    while start < s.len() {
         line += 1;
-        let mut rec = &s[start..end];
         let rec_start = start;
+        let (cells, end) = record_cells(s, start, delimiter, &mut ends, &mut non_ascii);
         start = end + 1;
+        let mut rec = &s[rec_start..end];
         if let Some(r) = rec.strip_suffix(b"\r") {
             rec = r;
+            ends[cells - 1] -= 1;
         }
         if rec.is_empty() {
             continue;
@@ -680,7 +686,6 @@ fn parse_plain_with(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut
             continue;
         }
         let row = piece.start_row(line);
-        let cells = cell_ends(s, rec_start, rec_start + rec.len(), delimiter, &mut ends);
         let mut from = 0;
         for (c, &to) in ends[..cells].iter().enumerate() {
             let plain = if c < ncol && !ctx.keep[c] {
@@ -699,35 +704,47 @@ fn parse_plain_with(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut
             piece.cell(missing, row, b"", ctx);
         }
     }
+    non_ascii
 }
 
-/// Where each cell of the record `s[start..end]` ends, counted from `start`: the delimiters'
-/// positions, then the record's length, written to the front of `ends` (grown as needed);
-/// returns how many.
+/// The record that starts at `start` and ends at the next newline (or the end of `s`): where
+/// each of its cells ends, counted from `start` (the delimiters' positions, then the record's
+/// length), written to the front of `ends` (grown as needed); returns how many, and the
+/// record's end. Sets `non_ascii` when a byte of the record is above 0x7F (then the text must
+/// be checked for UTF-8). One scan finds the delimiters, the newline and such bytes.
 #[inline(always)]
-fn cell_ends(s: &[u8], start: usize, end: usize, delimiter: u8, ends: &mut Vec<usize>) -> usize {
-    let len = end - start;
-    // Room for a delimiter at every byte, plus the unconditional writes below.
-    if ends.len() < len + 20 {
-        ends.resize(len + 20, 0);
-    }
+fn record_cells(
+    s: &[u8],
+    start: usize,
+    delimiter: u8,
+    ends: &mut Vec<usize>,
+    non_ascii: &mut bool,
+) -> (usize, usize) {
     let mut n = 0;
     let mut i = start;
     #[cfg(target_arch = "x86_64")]
     {
         use std::arch::x86_64::*;
         // SAFETY: SSE2 is part of the x86-64 baseline; each load reads the 16 bytes of `s` at
-        // i, and i + 16 <= s.len(). The last chunk may run past the record's end (into the
-        // next line): its bits from there on are masked off.
-        let d = unsafe { _mm_set1_epi8(delimiter as i8) };
-        while i < end && i + 16 <= s.len() {
-            let mut m = unsafe {
-                let bytes = _mm_loadu_si128(s.as_ptr().add(i).cast());
-                _mm_movemask_epi8(_mm_cmpeq_epi8(bytes, d)) as u32
-            };
-            if end - i < 16 {
-                m &= (1 << (end - i)) - 1;
+        // i, and i + 16 <= s.len(). A chunk may run past the record's end (into the next
+        // line): its bits from the newline on are masked off.
+        let (d, nl) = unsafe { (_mm_set1_epi8(delimiter as i8), _mm_set1_epi8(b'\n' as i8)) };
+        while i + 16 <= s.len() {
+            // Room for a delimiter at every byte of the chunk and the unconditional writes.
+            if ends.len() < n + 20 {
+                ends.resize(2 * (n + 20), 0);
             }
+            let (mut m, newline, high) = unsafe {
+                let bytes = _mm_loadu_si128(s.as_ptr().add(i).cast());
+                (
+                    _mm_movemask_epi8(_mm_cmpeq_epi8(bytes, d)) as u32,
+                    _mm_movemask_epi8(_mm_cmpeq_epi8(bytes, nl)) as u32,
+                    _mm_movemask_epi8(bytes) as u32,
+                )
+            };
+            let before_newline = newline.wrapping_sub(1) & !newline;
+            m &= before_newline;
+            *non_ascii |= high & before_newline != 0;
             let count = m.count_ones() as usize;
             let at = i - start;
             // Cells are rarely under four bytes: four writes without a branch per bit (the
@@ -743,18 +760,32 @@ fn cell_ends(s: &[u8], start: usize, end: usize, delimiter: u8, ends: &mut Vec<u
                 j += 1;
             }
             n += count;
+            if newline != 0 {
+                let end = i + newline.trailing_zeros() as usize;
+                ends[n] = end - start;
+                return (n + 1, end);
+            }
             i += 16;
         }
     }
     // The bytes the chunks left (all of them elsewhere than on x86-64).
-    for (k, &b) in s.get(i..end).unwrap_or_default().iter().enumerate() {
+    let rest = &s[i..];
+    let end = i + memchr::memchr(b'\n', rest).unwrap_or(rest.len());
+    for (k, &b) in s[i..end].iter().enumerate() {
+        if ends.len() < n + 2 {
+            ends.resize(2 * (n + 2), 0);
+        }
         if b == delimiter {
             ends[n] = i - start + k;
             n += 1;
         }
+        *non_ascii |= b > 0x7F;
     }
-    ends[n] = len;
-    n + 1
+    if ends.len() < n + 1 {
+        ends.resize(n + 1, 0);
+    }
+    ends[n] = end - start;
+    (n + 1, end)
 }
 
 /// A plain decimal (`-12.345`, `3`, at most 15 digits) filling `s[from..to]` exactly; `None`
