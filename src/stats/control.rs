@@ -457,6 +457,16 @@ impl Masks {
         #[cfg(target_arch = "x86_64")]
         if let Ok(word) = <&[f64; 64]>::try_from(chunk) {
             // The zone test outside the loop (it was not hoisted out of it).
+            if std::is_x86_feature_detected!("avx2") {
+                // SAFETY: the processor has AVX2, checked above.
+                return unsafe {
+                    if zones {
+                        Self::of_word_avx2::<true>(word, before)
+                    } else {
+                        Self::of_word_avx2::<false>(word, before)
+                    }
+                };
+            }
             return if zones {
                 Self::of_word_sse2::<true>(word, before)
             } else {
@@ -490,6 +500,55 @@ impl Masks {
                 m.beyond_down[0] |= bit(v < -1.0);
                 m.beyond_down[1] |= bit(v < -2.0);
                 m.within1 |= bit(a < 1.0);
+            }
+        }
+        m
+    }
+
+    /// [`Masks::of_word_sse2`] four points per comparison (AVX2): the same masks.
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    fn of_word_avx2<const ZONES: bool>(word: &[f64; 64], before: Option<f64>) -> Self {
+        use std::arch::x86_64::*;
+        let mut m = Masks::default();
+        let splat = _mm256_set1_pd;
+        let zero = _mm256_setzero_pd();
+        let abs_bits = _mm256_castsi256_pd(_mm256_set1_epi64x(i64::MAX));
+        // No point before the first: NaN makes its step neither rising nor falling.
+        let first_before = before.unwrap_or(f64::NAN);
+        for quad in 0..16 {
+            let j = 4 * quad;
+            // SAFETY: the loads read word[j..j + 4] and word[j - 1..j + 3], inside the word.
+            let (v, p) = unsafe {
+                let v = _mm256_loadu_pd(word.as_ptr().add(j));
+                let p = if j == 0 {
+                    _mm256_set_pd(word[2], word[1], word[0], first_before)
+                } else {
+                    _mm256_loadu_pd(word.as_ptr().add(j - 1))
+                };
+                (v, p)
+            };
+            let step = _mm256_sub_pd(v, p);
+            let a = _mm256_and_pd(v, abs_bits);
+            // Ordered, quiet comparisons: false with a NaN, as SSE2's cmpgt/cmplt.
+            macro_rules! bits {
+                ($op:ident, $x:expr, $y:expr) => {
+                    (_mm256_movemask_pd(_mm256_cmp_pd::<$op>($x, $y)) as u64) << j
+                };
+            }
+            m.above |= bits!(_CMP_GT_OQ, v, zero);
+            m.below |= bits!(_CMP_LT_OQ, v, zero);
+            m.rising |= bits!(_CMP_GT_OQ, step, zero);
+            m.falling |= bits!(_CMP_LT_OQ, step, zero);
+            m.beyond[2] |= bits!(_CMP_GT_OQ, a, splat(3.0));
+            if ZONES {
+                m.beyond[0] |= bits!(_CMP_GT_OQ, a, splat(1.0));
+                m.beyond[1] |= bits!(_CMP_GT_OQ, a, splat(2.0));
+                m.beyond_up[0] |= bits!(_CMP_GT_OQ, v, splat(1.0));
+                m.beyond_up[1] |= bits!(_CMP_GT_OQ, v, splat(2.0));
+                m.beyond_down[0] |= bits!(_CMP_LT_OQ, v, splat(-1.0));
+                m.beyond_down[1] |= bits!(_CMP_LT_OQ, v, splat(-2.0));
+                m.within1 |= bits!(_CMP_LT_OQ, a, splat(1.0));
             }
         }
         m
@@ -661,19 +720,28 @@ mod tests {
     }
 
     proptest! {
-        /// The two-points-at-a-time masks are the point-by-point ones.
+        /// The word-at-a-time masks (two or four points a comparison) are the point-by-point ones.
         #[test]
         fn word_masks_are_the_point_masks(
             word in prop::collection::vec(prop_oneof![-4.0f64..4.0, Just(0.0), Just(1.0), Just(-2.0), Just(3.0)], 64),
             before in prop::option::of(-4.0f64..4.0),
             zones in any::<bool>(),
         ) {
-            let a = Masks::of(&word, before, zones);
-            let b = Masks::of_points(&word, before, zones);
-            prop_assert_eq!(
-                (a.above, a.below, a.rising, a.falling, a.beyond, a.beyond_up, a.beyond_down, a.within1),
-                (b.above, b.below, b.rising, b.falling, b.beyond, b.beyond_up, b.beyond_down, b.within1)
-            );
+            let all = |m: Masks| (m.above, m.below, m.rising, m.falling, m.beyond, m.beyond_up, m.beyond_down, m.within1);
+            let b = all(Masks::of_points(&word, before, zones));
+            prop_assert_eq!(all(Masks::of(&word, before, zones)), b);
+            // Both word builds, whichever one `of` picked on this processor.
+            #[cfg(target_arch = "x86_64")]
+            {
+                let word: &[f64; 64] = word.as_slice().try_into().unwrap();
+                let sse2 = if zones { Masks::of_word_sse2::<true>(word, before) } else { Masks::of_word_sse2::<false>(word, before) };
+                prop_assert_eq!(all(sse2), b);
+                if std::is_x86_feature_detected!("avx2") {
+                    // SAFETY: the processor has AVX2, checked above.
+                    let avx2 = unsafe { if zones { Masks::of_word_avx2::<true>(word, before) } else { Masks::of_word_avx2::<false>(word, before) } };
+                    prop_assert_eq!(all(avx2), b);
+                }
+            }
         }
     }
 
