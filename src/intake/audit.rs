@@ -241,6 +241,24 @@ struct FeatureCheck {
 }
 
 fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
+    #[cfg(target_arch = "x86_64")]
+    if std::is_x86_feature_detected!("avx2") {
+        // SAFETY: the processor has AVX2, checked above.
+        return unsafe { check_feature_avx2(values, spec) };
+    }
+    check_feature_with(values, spec)
+}
+
+/// [`check_feature`] compiled for AVX2 processors: the chunk tests four values an
+/// instruction instead of two; the same operations, the same results.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+fn check_feature_avx2(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
+    check_feature_with(values, spec)
+}
+
+#[inline(always)]
+fn check_feature_with(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
     let (centre, width) = match spec.and_then(|s| s.centre_and_width()) {
         Some(cw) => cw,
         None => robust_centre_and_spread(values),
@@ -294,6 +312,7 @@ fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
 const CHUNK: usize = 16;
 
 /// Whether `v` has at most `k` decimal places (the test of [`decimal_places`] at k).
+#[inline(always)]
 fn has_at_most(v: f64, k: u32) -> bool {
     let scaled = v.abs() * POW10[k.min(9) as usize];
     // max(scaled, 1) by comparison: the NaN-propagating f64::max would keep the scan from
@@ -304,6 +323,7 @@ fn has_at_most(v: f64, k: u32) -> bool {
 
 /// x rounded to the nearest integer (ties to even) by adding and removing 1.5·2⁵², which
 /// leaves no fraction bits (no library call in the hot loop); x ≥ 2⁵¹ is already an integer.
+#[inline(always)]
 fn round_half_even(x: f64) -> f64 {
     const SHIFT: f64 = 6_755_399_441_055_744.0;
     if x.abs() >= 2_251_799_813_685_248.0 {
@@ -322,6 +342,17 @@ fn decimal_places(v: f64) -> u32 {
 
 /// Rows whose part id was seen before: (row, first row with that id).
 fn duplicate_parts(ids: &super::Strings) -> Vec<(usize, usize)> {
+    // Serial numbers in file order (each above the one before) repeat none: one comparison a
+    // row instead of a hash table of every id, which misses the cache at each insert.
+    let mut last: Option<&str> = None;
+    let ascending = ids.iter().filter(|id| !id.is_empty()).all(|id| {
+        let above = last.is_none_or(|l| id > l);
+        last = Some(id);
+        above
+    });
+    if ascending {
+        return Vec::new();
+    }
     let mut first_seen: FxHashMap<&str, usize> =
         FxHashMap::with_capacity_and_hasher(ids.len(), Default::default());
     let mut dups = Vec::new();
@@ -416,6 +447,28 @@ mod tests {
     }
 
     proptest! {
+        /// Repeated part ids are found with and without the shortcut for ids in ascending
+        /// order: every row whose id came before, paired with the first row of that id.
+        #[test]
+        fn duplicates_are_every_repeat_of_an_earlier_id(
+            ids in prop::collection::vec(prop_oneof![Just(String::new()), "P[0-9]{1,2}"], 0..60),
+            sort in any::<bool>(),
+        ) {
+            let mut ids = ids;
+            if sort {
+                ids.sort();
+            }
+            let mut strings = crate::intake::Strings::default();
+            for id in &ids {
+                strings.push(id);
+            }
+            let expected: Vec<(usize, usize)> = (0..ids.len())
+                .filter(|&r| !ids[r].is_empty())
+                .filter_map(|r| ids[..r].iter().position(|i| *i == ids[r]).map(|first| (r, first)))
+                .collect();
+            prop_assert_eq!(duplicate_parts(&strings), expected);
+        }
+
         #[test]
         fn chunked_scans_find_what_a_value_at_a_time_finds(
             values in prop::collection::vec(value(), 0..200),
@@ -429,12 +482,14 @@ mod tests {
                 source_file: String::new(),
                 source_line: None,
             };
-            let check = check_feature(&values, Some(&spec));
             let (implausible, used, decimals) = check_by_one(&values, 0.0, 2.0);
-            prop_assert_eq!(&check.implausible, &implausible);
-            prop_assert_eq!(check.used, used);
-            if check.distinct > 0 {
-                prop_assert_eq!(check.resolution, Some(10f64.powi(-(decimals as i32))));
+            // The build `check_feature` picks on this processor, and the baseline one.
+            for check in [check_feature(&values, Some(&spec)), check_feature_with(&values, Some(&spec))] {
+                prop_assert_eq!(&check.implausible, &implausible);
+                prop_assert_eq!(check.used, used);
+                if check.distinct > 0 {
+                    prop_assert_eq!(check.resolution, Some(10f64.powi(-(decimals as i32))));
+                }
             }
         }
     }
