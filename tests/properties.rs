@@ -170,6 +170,51 @@ proptest! {
 }
 
 proptest! {
+    /// The moments and observed rejects taken over the distinct values (as `capability` takes
+    /// them) are those of the values one by one: n, min, max and the counts exactly; mean and
+    /// sd to 1e-12 of the values' magnitude (sums in another order round differently, at
+    /// rounding error of the largest value), skewness and kurtosis to 1e-9.
+    #[test]
+    fn moments_and_rejects_from_runs_are_those_of_the_values(
+        grid in prop::collection::vec(-3_000i64..3_000, 1..3000),
+        decimals in 0usize..5,
+        centre in -500.0f64..500.0,
+        off_grid in any::<bool>(),
+    ) {
+        use capstack::stats::capability::{observed_ppm, Limits};
+        use capstack::stats::moments::{moments, Runs};
+        let step = 10f64.powi(-(decimals as i32));
+        let x: Vec<f64> = grid
+            .iter()
+            .enumerate()
+            .map(|(i, &k)| {
+                let v: f64 = format!("{:.*}", decimals, centre.round() + k as f64 * step).parse().unwrap();
+                if off_grid { v + (i as f64).sin() * 1e-3 } else { v }
+            })
+            .collect();
+        let (a, b) = (moments(&x), Runs::of(&x).moments());
+        prop_assert_eq!((a.n, a.min, a.max), (b.n, b.min, b.max));
+        let scale = a.min.abs().max(a.max.abs());
+        prop_assert!((a.mean - b.mean).abs() <= 1e-12 * scale, "mean {} {}", a.mean, b.mean);
+        if a.n >= 2 {
+            prop_assert!((a.sd - b.sd).abs() <= 1e-12 * scale, "sd {} {}", a.sd, b.sd);
+        }
+        if a.n >= 4 && a.sd > 1e-6 * a.mean.abs().max(1.0) {
+            prop_assert!((a.skewness - b.skewness).abs() < 1e-9 * a.skewness.abs().max(1.0));
+            prop_assert!((a.kurtosis - b.kurtosis).abs() < 1e-9 * a.kurtosis.abs().max(1.0));
+        }
+        // Limits on the grid, so that values fall on them (a value on a limit conforms).
+        let on_grid = |k: f64| format!("{:.*}", decimals, centre.round() + k * step).parse::<f64>().unwrap();
+        let limits = Limits { nominal: None, lsl: Some(on_grid(-1000.0)), usl: Some(on_grid(1000.0)) };
+        let n = x.len() as f64;
+        let below = x.iter().filter(|&&v| v < limits.lsl.unwrap()).count() as f64 / n * 1e6;
+        let above = x.iter().filter(|&&v| v > limits.usl.unwrap()).count() as f64 / n * 1e6;
+        let ppm = observed_ppm(&Runs::of(&x), &limits);
+        prop_assert_eq!((ppm.below, ppm.above), (Some(below), Some(above)));
+    }
+}
+
+proptest! {
     /// Runs counted on the decimal grid are the runs of the sorted sample: on the grid (values
     /// parsed from text with 0–5 decimals, as a file holds them), one ulp off a grid value (two
     /// numbers on one grid point), and off the grid.

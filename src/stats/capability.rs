@@ -1,7 +1,7 @@
 //! Capability of one feature: indices from within and overall sigma, their confidence bounds,
 //! reject rates, and normality.
 
-use super::moments::moments;
+use super::moments::Runs;
 use super::normal;
 use super::normality::{anderson_darling_runs, shapiro_wilk_runs, AndersonDarling, ShapiroWilk};
 use super::within::{moving_range_sigma, subgroup_sigma, WithinMethod};
@@ -133,7 +133,10 @@ pub fn capability(
     options: &CapabilityOptions,
 ) -> Capability {
     let mut notes = Vec::new();
-    let m = moments(ordered);
+    // The distinct values with their counts: the moments, the observed rejects and both
+    // normality tests are sums over them (a gauge's thousands, not the sample's millions).
+    let runs = Runs::of(ordered);
+    let m = runs.moments();
     let n = m.n;
     let method = if subgroups.is_some() {
         options.within
@@ -165,7 +168,6 @@ pub fn capability(
         _ => None,
     };
     let c = options.confidence;
-    let runs = super::moments::Runs::of_range(ordered, m.min, m.max);
     let shapiro = shapiro_wilk_runs(&runs);
     if shapiro.is_some_and(|s| s.p_approximate) {
         notes.push(format!(
@@ -177,7 +179,7 @@ pub fn capability(
         notes.push("fewer than 3 values: no normality test".to_string());
     }
     let split = PpmSplit {
-        observed: observed_ppm(ordered, limits),
+        observed: observed_ppm(&runs, limits),
         expected_within: normal_ppm(m.mean, sd_within, limits),
         expected_overall: normal_ppm(m.mean, m.sd, limits),
     };
@@ -319,17 +321,23 @@ pub fn bissell_interval(index: f64, n: usize, c: f64) -> Option<Interval> {
 }
 
 /// The share of values outside the limits (a value on a limit conforms), in ppm.
-pub fn observed_ppm(x: &[f64], limits: &Limits) -> Ppm {
-    if x.is_empty() {
+pub fn observed_ppm(runs: &Runs, limits: &Limits) -> Ppm {
+    let n = runs.n();
+    if n == 0 {
         return Ppm::default();
     }
-    let n = x.len() as f64;
-    let below = limits
-        .lsl
-        .map(|l| x.iter().filter(|&&v| v < l).count() as f64 / n * 1e6);
-    let above = limits
-        .usl
-        .map(|u| x.iter().filter(|&&v| v > u).count() as f64 / n * 1e6);
+    let count = |outside: &dyn Fn(f64) -> bool| {
+        let k: usize = runs
+            .values
+            .iter()
+            .zip(&runs.counts)
+            .filter(|(&v, _)| outside(v))
+            .map(|(_, &c)| c)
+            .sum();
+        k as f64 / n as f64 * 1e6
+    };
+    let below = limits.lsl.map(|l| count(&|v| v < l));
+    let above = limits.usl.map(|u| count(&|v| v > u));
     total(below, above)
 }
 

@@ -15,6 +15,19 @@ pub struct Moments {
     pub kurtosis: f64,
 }
 
+impl Moments {
+    /// The moments of no values.
+    const NONE: Self = Self {
+        n: 0,
+        mean: f64::NAN,
+        sd: f64::NAN,
+        min: f64::NAN,
+        max: f64::NAN,
+        skewness: f64::NAN,
+        kurtosis: f64::NAN,
+    };
+}
+
 /// # Formula
 /// Two passes: x̄ = Σx/n, refined by the mean of the residuals (which recovers the digits a
 /// plain sum loses when values share many leading digits); then the central sums
@@ -25,15 +38,7 @@ pub struct Moments {
 pub fn moments(x: &[f64]) -> Moments {
     let n = x.len();
     if n == 0 {
-        return Moments {
-            n,
-            mean: f64::NAN,
-            sd: f64::NAN,
-            min: f64::NAN,
-            max: f64::NAN,
-            skewness: f64::NAN,
-            kurtosis: f64::NAN,
-        };
+        return Moments::NONE;
     }
     let nf = n as f64;
     let rough = sum_of(x, |v| v) / nf;
@@ -71,36 +76,91 @@ pub fn moments(x: &[f64]) -> Moments {
     let min = lo.into_iter().fold(f64::INFINITY, f64::min);
     let max = hi.into_iter().fold(f64::NEG_INFINITY, f64::max);
     let lanes = |a: [f64; 4]| (a[0] + a[1]) + (a[2] + a[3]);
-    let (s1, m2, m3, m4) = (lanes(s1), lanes(m2), lanes(m3), lanes(m4));
-    let ss = (m2 - s1 * s1 / nf).max(0.0);
-    let sd = if n >= 2 {
-        (ss / (nf - 1.0)).sqrt()
-    } else {
-        f64::NAN
-    };
-    // Biased moments g1, g2, then the small-sample adjustments (Joanes & Gill 1998, "G1", "G2").
-    let (b2, b3, b4) = (ss / nf, m3 / nf, m4 / nf);
-    let skewness = if n >= 3 && b2 > 0.0 {
-        let g1 = b3 / b2.powf(1.5);
-        g1 * (nf * (nf - 1.0)).sqrt() / (nf - 2.0)
-    } else {
-        f64::NAN
-    };
-    let kurtosis = if n >= 4 && b2 > 0.0 {
-        let g2 = b4 / (b2 * b2) - 3.0;
-        ((nf + 1.0) * g2 + 6.0) * (nf - 1.0) / ((nf - 2.0) * (nf - 3.0))
-    } else {
-        f64::NAN
-    };
-    Moments {
+    let sums = CentralSums {
         n,
         mean,
-        sd,
-        min,
-        max,
-        skewness,
-        kurtosis,
+        s1: lanes(s1),
+        m2: lanes(m2),
+        m3: lanes(m3),
+        m4: lanes(m4),
+    };
+    sums.moments(min, max)
+}
+
+/// Σ(x − x̄)^k, k = 1 … 4, about the refined mean x̄ of n values.
+struct CentralSums {
+    n: usize,
+    mean: f64,
+    s1: f64,
+    m2: f64,
+    m3: f64,
+    m4: f64,
+}
+
+impl CentralSums {
+    fn moments(&self, min: f64, max: f64) -> Moments {
+        let Self {
+            n,
+            mean,
+            s1,
+            m2,
+            m3,
+            m4,
+        } = *self;
+        let nf = n as f64;
+        let ss = (m2 - s1 * s1 / nf).max(0.0);
+        let sd = if n >= 2 {
+            (ss / (nf - 1.0)).sqrt()
+        } else {
+            f64::NAN
+        };
+        // Biased moments g1, g2, then the small-sample adjustments (Joanes & Gill 1998, "G1",
+        // "G2").
+        let (b2, b3, b4) = (ss / nf, m3 / nf, m4 / nf);
+        let skewness = if n >= 3 && b2 > 0.0 {
+            let g1 = b3 / b2.powf(1.5);
+            g1 * (nf * (nf - 1.0)).sqrt() / (nf - 2.0)
+        } else {
+            f64::NAN
+        };
+        let kurtosis = if n >= 4 && b2 > 0.0 {
+            let g2 = b4 / (b2 * b2) - 3.0;
+            ((nf + 1.0) * g2 + 6.0) * (nf - 1.0) / ((nf - 2.0) * (nf - 3.0))
+        } else {
+            f64::NAN
+        };
+        Moments {
+            n,
+            mean,
+            sd,
+            min,
+            max,
+            skewness,
+            kurtosis,
+        }
     }
+}
+
+/// The smallest and largest value (±∞ for none), NaNs passed over: four lanes compared
+/// without a branch, so the loop vectorises.
+pub fn extremes(x: &[f64]) -> (f64, f64) {
+    let (mut lo, mut hi) = ([f64::INFINITY; 4], [f64::NEG_INFINITY; 4]);
+    let mut chunks = x.chunks_exact(4);
+    for chunk in &mut chunks {
+        for j in 0..4 {
+            let v = chunk[j];
+            lo[j] = if v < lo[j] { v } else { lo[j] };
+            hi[j] = if v > hi[j] { v } else { hi[j] };
+        }
+    }
+    for &v in chunks.remainder() {
+        lo[0] = if v < lo[0] { v } else { lo[0] };
+        hi[0] = if v > hi[0] { v } else { hi[0] };
+    }
+    (
+        lo.into_iter().fold(f64::INFINITY, f64::min),
+        hi.into_iter().fold(f64::NEG_INFINITY, f64::max),
+    )
 }
 
 /// Σ f(xᵢ₋₁, xᵢ) over consecutive values, in the lanes of [`sum_of`] (lane j takes the pairs
@@ -202,11 +262,7 @@ impl Runs {
     /// Runs of any finite sample: counted on its decimal grid when it has one (values written
     /// with a fixed number of decimals), else sorted.
     pub fn of(x: &[f64]) -> Self {
-        let (min, max) = x
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
-                (a.min(v), b.max(v))
-            });
+        let (min, max) = extremes(x);
         Self::of_range(x, min, max)
     }
 
@@ -222,6 +278,44 @@ impl Runs {
     /// Number of values.
     pub fn n(&self) -> usize {
         self.counts.iter().sum()
+    }
+
+    /// The sample's [`moments`] from its distinct values: the same sums, each value's term
+    /// taken once and multiplied by its count (exact in the count), so the work follows the
+    /// distinct values, not the sample size.
+    pub fn moments(&self) -> Moments {
+        let n = self.n();
+        let (Some(&min), Some(&max)) = (self.values.first(), self.values.last()) else {
+            return Moments::NONE;
+        };
+        let nf = n as f64;
+        let weighted = |f: &dyn Fn(f64) -> f64| {
+            self.values
+                .iter()
+                .zip(&self.counts)
+                .map(|(&v, &c)| c as f64 * f(v))
+                .sum::<f64>()
+        };
+        let rough = weighted(&|v| v) / nf;
+        let mean = rough + weighted(&|v| v - rough) / nf;
+        let (mut s1, mut m2, mut m3, mut m4) = (0.0, 0.0, 0.0, 0.0);
+        for (&v, &c) in self.values.iter().zip(&self.counts) {
+            let (c, d) = (c as f64, v - mean);
+            let d2 = d * d;
+            s1 += c * d;
+            m2 += c * d2;
+            m3 += c * d2 * d;
+            m4 += c * d2 * d2;
+        }
+        CentralSums {
+            n,
+            mean,
+            s1,
+            m2,
+            m3,
+            m4,
+        }
+        .moments(min, max)
     }
 
     /// The sample again, sorted.
