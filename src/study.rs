@@ -230,7 +230,6 @@ pub fn study(
         .iter()
         .map(|(_, rows)| rows.len() == data.rows() && rows.iter().enumerate().all(|(i, &r)| i == r))
         .collect();
-    let file_names: Vec<Arc<str>> = data.files.iter().map(|f| Arc::from(f.as_str())).collect();
     let mut jobs = Vec::new();
     for f in 0..data.features.len() {
         for ((g, rows), &whole) in groups.iter().zip(&whole) {
@@ -302,6 +301,10 @@ pub fn study(
             let chosen = model
                 .as_ref()
                 .and_then(|m| models.iter().find(|f| f.name == m.name));
+            // The file names of this feature's listed signals, shared by them alone: one
+            // count per feature, not one that both threads update at every signal.
+            let file_names: Vec<Arc<str>> =
+                data.files.iter().map(|f| Arc::from(f.as_str())).collect();
             let locate = |point: usize| {
                 let r = row_of(point);
                 (
