@@ -140,7 +140,7 @@ pub(super) fn check_dataset(data: &mut Dataset, specs: &SpecSet) {
                 .par_iter()
                 .map(|f| {
                     let spec = specs.get(&f.name).or_else(|| embedded.get(&f.name));
-                    check_feature(&f.values, spec, f.scan)
+                    check_feature(&f.values, spec)
                 })
                 .collect()
         },
@@ -240,131 +240,53 @@ struct FeatureCheck {
     used: u64,
 }
 
-/// What one pass over a feature's values finds before its centre is known: the count of
-/// numbers, the finest decimal place and the extremes. The reader takes it a piece of the file
-/// at a time, while the values it has just written are still in the cache, so the audit need
-/// not read every value again from memory.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub(crate) struct ValueScan {
-    numbers: usize,
-    decimals: u32,
-    /// The smallest and largest number (+∞ and −∞ without any).
-    lo: f64,
-    hi: f64,
-}
-
-impl ValueScan {
-    /// The scan of no values.
-    pub const EMPTY: Self = Self {
-        numbers: 0,
-        decimals: 0,
-        lo: f64::INFINITY,
-        hi: f64::NEG_INFINITY,
-    };
-
-    pub fn of(values: &[f64]) -> Self {
-        #[cfg(target_arch = "x86_64")]
-        if std::is_x86_feature_detected!("avx2") {
-            // SAFETY: the processor has AVX2, checked above.
-            return unsafe { Self::of_avx2(values) };
-        }
-        Self::of_with(values)
-    }
-
-    /// [`ValueScan::of`] compiled for AVX2 processors: the chunk tests four values an
-    /// instruction instead of two; the same operations, the same results.
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    fn of_avx2(values: &[f64]) -> Self {
-        Self::of_with(values)
-    }
-
-    /// A chunk at a time: the chunk is tested whole (no early exit, so the tests vectorise)
-    /// and gone through value by value only when it holds a value with more decimals than
-    /// seen so far, which is rare.
-    #[inline(always)]
-    fn of_with(values: &[f64]) -> Self {
-        // `&` not `&&`: no branch in the chunk's test.
-        let finer = |v: f64, k: u32| !v.is_nan() & !has_at_most(v, k);
-        let mut scan = Self::EMPTY;
-        for chunk in values.chunks(CHUNK) {
-            scan.numbers += chunk.iter().filter(|v| !v.is_nan()).count();
-            // Extremes by comparison: a NaN is passed over.
-            for &v in chunk {
-                scan.lo = if v < scan.lo { v } else { scan.lo };
-                scan.hi = if v > scan.hi { v } else { scan.hi };
-            }
-            if chunk
-                .iter()
-                .fold(false, |any, &v| any | finer(v, scan.decimals))
-            {
-                for &v in chunk {
-                    if finer(v, scan.decimals) {
-                        scan.decimals = decimal_places(v);
-                    }
-                }
-            }
-        }
-        scan
-    }
-
-    /// The scan of both sets of values together.
-    pub fn merged(self, other: Self) -> Self {
-        Self {
-            numbers: self.numbers + other.numbers,
-            decimals: self.decimals.max(other.decimals),
-            lo: self.lo.min(other.lo),
-            hi: self.hi.max(other.hi),
-        }
-    }
-}
-
-/// The checks of one feature's values; `scan`, when the reader took one, spares the pass
-/// over them unless a value is implausible.
-fn check_feature(
-    values: &[f64],
-    spec: Option<&super::Spec>,
-    scan: Option<ValueScan>,
-) -> FeatureCheck {
+fn check_feature(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
     #[cfg(target_arch = "x86_64")]
     if std::is_x86_feature_detected!("avx2") {
         // SAFETY: the processor has AVX2, checked above.
-        return unsafe { check_feature_avx2(values, spec, scan) };
+        return unsafe { check_feature_avx2(values, spec) };
     }
-    check_feature_with(values, spec, scan)
+    check_feature_with(values, spec)
 }
 
 /// [`check_feature`] compiled for AVX2 processors: the chunk tests four values an
 /// instruction instead of two; the same operations, the same results.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
-fn check_feature_avx2(
-    values: &[f64],
-    spec: Option<&super::Spec>,
-    scan: Option<ValueScan>,
-) -> FeatureCheck {
-    check_feature_with(values, spec, scan)
+fn check_feature_avx2(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
+    check_feature_with(values, spec)
 }
 
 #[inline(always)]
-fn check_feature_with(
-    values: &[f64],
-    spec: Option<&super::Spec>,
-    scan: Option<ValueScan>,
-) -> FeatureCheck {
+fn check_feature_with(values: &[f64], spec: Option<&super::Spec>) -> FeatureCheck {
     let (centre, width) = match spec.and_then(|s| s.centre_and_width()) {
         Some(cw) => cw,
         None => robust_centre_and_spread(values),
     };
+    // One pass for the count of numbers, the implausible rows and the finest decimal place
+    // of the others, a chunk at a time: the chunk is tested whole (no early exit, so the tests
+    // vectorise) and gone through value by value only when it holds an implausible value or
+    // one with more decimals than seen so far, which is rare.
     let limit = IMPLAUSIBLE_WIDTHS * width;
     let far = |v: f64| width > 0.0 && (v - centre).abs() > limit;
-    // v ↦ |v − centre| as computed rises and falls monotonically either side of the centre,
-    // so some value is implausible exactly when an extreme is: then the scan's count and
-    // decimals are the answer.
-    let (implausible, numbers, decimals) = match scan {
-        Some(s) if !far(s.lo) && !far(s.hi) => (Vec::new(), s.numbers, s.decimals),
-        _ => implausible_scan(values, far),
-    };
+    // `&` not `&&`: no branch in the chunk's test.
+    let finer = |v: f64, k: u32| !v.is_nan() & !has_at_most(v, k);
+    let mut implausible = Vec::new();
+    let mut numbers = 0usize;
+    let mut decimals = 0u32;
+    for (c, chunk) in values.chunks(CHUNK).enumerate() {
+        numbers += chunk.iter().filter(|v| !v.is_nan()).count();
+        let any_far = chunk.iter().fold(false, |any, &v| any | far(v));
+        if any_far || chunk.iter().fold(false, |any, &v| any | finer(v, decimals)) {
+            for (i, &v) in chunk.iter().enumerate() {
+                if far(v) {
+                    implausible.push(c * CHUNK + i);
+                } else if finer(v, decimals) {
+                    decimals = decimal_places(v);
+                }
+            }
+        }
+    }
     let out = |r: usize| !implausible.is_empty() && implausible.binary_search(&r).is_ok();
     // Implausible values are numbers, so they come off the count of numbers.
     let used = (numbers - implausible.len()) as u64;
@@ -384,31 +306,6 @@ fn check_feature_with(
         resolution,
         used,
     }
-}
-
-/// One pass for the implausible rows, the count of numbers and the finest decimal place of
-/// the plausible ones, a chunk at a time as in [`ValueScan::of`] (a chunk holding an
-/// implausible value is gone through value by value too).
-#[inline(always)]
-fn implausible_scan(values: &[f64], far: impl Fn(f64) -> bool) -> (Vec<usize>, usize, u32) {
-    let finer = |v: f64, k: u32| !v.is_nan() & !has_at_most(v, k);
-    let mut implausible = Vec::new();
-    let mut numbers = 0usize;
-    let mut decimals = 0u32;
-    for (c, chunk) in values.chunks(CHUNK).enumerate() {
-        numbers += chunk.iter().filter(|v| !v.is_nan()).count();
-        let any_far = chunk.iter().fold(false, |any, &v| any | far(v));
-        if any_far || chunk.iter().fold(false, |any, &v| any | finer(v, decimals)) {
-            for (i, &v) in chunk.iter().enumerate() {
-                if far(v) {
-                    implausible.push(c * CHUNK + i);
-                } else if finer(v, decimals) {
-                    decimals = decimal_places(v);
-                }
-            }
-        }
-    }
-    (implausible, numbers, decimals)
 }
 
 /// Values tested at a time by the audit's scan.
@@ -572,12 +469,9 @@ mod tests {
             prop_assert_eq!(duplicate_parts(&strings), expected);
         }
 
-        /// With or without the reader's scan (taken in pieces cut anywhere and merged), in
-        /// either build, the checks find what the value-at-a-time reading finds.
         #[test]
         fn chunked_scans_find_what_a_value_at_a_time_finds(
             values in prop::collection::vec(value(), 0..200),
-            cuts in prop::collection::vec(0usize..200, 0..4),
         ) {
             let spec = crate::intake::Spec {
                 nominal: Some(0.0),
@@ -589,21 +483,8 @@ mod tests {
                 source_line: None,
             };
             let (implausible, used, decimals) = check_by_one(&values, 0.0, 2.0);
-            let mut cuts: Vec<usize> = cuts.into_iter().map(|c| c.min(values.len())).collect();
-            cuts.push(0);
-            cuts.push(values.len());
-            cuts.sort();
-            let scan = cuts
-                .windows(2)
-                .map(|w| ValueScan::of(&values[w[0]..w[1]]))
-                .fold(ValueScan::EMPTY, ValueScan::merged);
-            prop_assert_eq!(scan, ValueScan::of_with(&values));
             // The build `check_feature` picks on this processor, and the baseline one.
-            for check in [
-                check_feature(&values, Some(&spec), None),
-                check_feature_with(&values, Some(&spec), None),
-                check_feature(&values, Some(&spec), Some(scan)),
-            ] {
+            for check in [check_feature(&values, Some(&spec)), check_feature_with(&values, Some(&spec))] {
                 prop_assert_eq!(&check.implausible, &implausible);
                 prop_assert_eq!(check.used, used);
                 if check.distinct > 0 {
@@ -620,10 +501,8 @@ mod tests {
         values[17] = f64::NAN;
         values[33] = 10.125;
         values[36] = 10.25;
-        for scan in [None, Some(ValueScan::of(&values))] {
-            let check = check_feature(&values, None, scan);
-            assert_eq!(check.resolution, Some(1e-3));
-            assert_eq!(check.used, 39);
-        }
+        let check = check_feature(&values, None);
+        assert_eq!(check.resolution, Some(1e-3));
+        assert_eq!(check.used, 39);
     }
 }

@@ -4,7 +4,7 @@
 //! outside quotes) into pieces that are parsed on all cores and appended in order, so memory
 //! stays near the parsed values and line numbers stay exact.
 
-use super::audit::{FileAudit, RejectedRow, Unused, ValueScan};
+use super::audit::{FileAudit, RejectedRow, Unused};
 use super::cells::{self, parse_cell};
 use super::text::{Dictionary, Strings};
 use super::{BadCell, RawColumn, RawTable, KEPT_TEXT};
@@ -59,7 +59,6 @@ pub(crate) fn read_delimited(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Re
                 bad: Vec::new(),
                 bad_texts: Dictionary::default(),
                 text: k.then(Strings::default),
-                scan: Some(ValueScan::EMPTY),
             })
             .collect(),
         lines: Vec::new(),
@@ -442,8 +441,6 @@ impl<'a> Piece<'a> {
 struct PieceRest {
     rows: usize,
     columns: Vec<PieceText>,
-    /// Each column's values scanned for the audit.
-    scans: Vec<ValueScan>,
     blank_rows: Vec<u64>,
     extra: Vec<Unused>,
     decimal_comma_used: bool,
@@ -569,9 +566,6 @@ fn parse_block(
             }
         });
     for rest in rests {
-        for (col, scan) in table.columns.iter_mut().zip(&rest.scans) {
-            col.scan = col.scan.map(|s| s.merged(*scan));
-        }
         for line in rest.blank_rows {
             table.rejected.push(RejectedRow {
                 file: ctx.path.to_string(),
@@ -627,16 +621,9 @@ fn parse_piece(
         check_utf8(s, ctx.path, lines_before)?;
         parse_quoted(s, lines_before, ctx, &mut piece)?;
     }
-    // Scanned for the audit now, while the piece's values are still in the cache.
-    let scans = piece
-        .numbers
-        .iter()
-        .map(|col| ValueScan::of(&col[..piece.rows]))
-        .collect();
     Ok(PieceRest {
         rows: piece.rows,
         columns: piece.columns,
-        scans,
         blank_rows: piece.blank_rows,
         extra: piece.extra,
         decimal_comma_used: piece.decimal_comma_used,

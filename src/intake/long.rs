@@ -187,8 +187,6 @@ pub(super) fn add_long(
             rows_of_part.push(row);
         }
         let row = rows_of_part[k];
-        // Values placed by part, not appended in file order: the audit reads them itself.
-        data.features[fi].scan = None;
         let values = &mut data.features[fi].values;
         if values.len() <= row {
             values.resize(row + 1, f64::NAN);

@@ -67,9 +67,6 @@ impl Default for ReadOptions {
 pub struct FeatureColumn {
     pub name: String,
     pub values: Vec<f64>,
-    /// The reader's scan of every value (see [`audit::ValueScan`]); `None` when a reader took
-    /// none, and the audit reads the values itself.
-    pub(crate) scan: Option<audit::ValueScan>,
 }
 
 /// All inspection data of one run, as parts by features.
@@ -131,7 +128,6 @@ impl Dataset {
         self.features.push(FeatureColumn {
             name: name.to_string(),
             values: Vec::new(),
-            scan: Some(audit::ValueScan::EMPTY),
         });
         self.features.len() - 1
     }
@@ -258,8 +254,6 @@ pub(crate) struct RawColumn {
     /// The text of each cell as written (trimmed), kept only for columns that may be ids or
     /// keys (see `read_one`).
     pub text: Option<Strings>,
-    /// The scan of `numbers`, when the reader took one as it went.
-    pub scan: Option<audit::ValueScan>,
 }
 
 /// A cell that was not a finite number, in 12 bytes (a column of a million lot codes is a
@@ -514,9 +508,7 @@ fn add_wide(
         match role {
             Role::Feature => {
                 let fi = data.feature_index(&col.name);
-                let feature = &mut data.features[fi];
-                feature.scan = feature.scan.zip(col.scan).map(|(a, b)| a.merged(b));
-                let values = &mut feature.values;
+                let values = &mut data.features[fi].values;
                 values.resize(first_row, f64::NAN);
                 file_audit.cells_read += rows as u64;
                 file_audit.values_used += (rows - col.bad.len()) as u64;

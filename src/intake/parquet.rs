@@ -39,7 +39,6 @@ pub(crate) fn read_parquet(path: &str, keep_text: &dyn Fn(&str) -> bool) -> Resu
             bad: Vec::new(),
             bad_texts: Dictionary::default(),
             text: keep.then(Strings::default),
-            scan: None,
         };
         let bad = |out: &mut RawColumn, row: usize, text: &str, reason: &'static str| {
             let text = out.bad_texts.code(text);
