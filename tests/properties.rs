@@ -169,6 +169,19 @@ proptest! {
     }
 }
 
+/// Values on the decimal grid of `decimals` places around `centre` (rounded), `grid` steps
+/// away, read from their text as a file holds them.
+fn grid_values(grid: &[i64], decimals: usize, centre: f64) -> Vec<f64> {
+    let step = 10f64.powi(-(decimals as i32));
+    grid.iter()
+        .map(|&k| {
+            format!("{:.*}", decimals, centre.round() + k as f64 * step)
+                .parse()
+                .unwrap()
+        })
+        .collect()
+}
+
 proptest! {
     /// The moments and observed rejects taken over the distinct values (as `capability` takes
     /// them) are those of the values one by one: n, min, max and the counts exactly; mean and
@@ -183,14 +196,10 @@ proptest! {
     ) {
         use capstack::stats::capability::{observed_ppm, Limits};
         use capstack::stats::moments::{moments, Runs};
-        let step = 10f64.powi(-(decimals as i32));
-        let x: Vec<f64> = grid
+        let x: Vec<f64> = grid_values(&grid, decimals, centre)
             .iter()
             .enumerate()
-            .map(|(i, &k)| {
-                let v: f64 = format!("{:.*}", decimals, centre.round() + k as f64 * step).parse().unwrap();
-                if off_grid { v + (i as f64).sin() * 1e-3 } else { v }
-            })
+            .map(|(i, &v)| if off_grid { v + (i as f64).sin() * 1e-3 } else { v })
             .collect();
         let (a, b) = (moments(&x), Runs::of(&x).moments());
         prop_assert_eq!((a.n, a.min, a.max), (b.n, b.min, b.max));
@@ -204,8 +213,8 @@ proptest! {
             prop_assert!((a.kurtosis - b.kurtosis).abs() < 1e-9 * a.kurtosis.abs().max(1.0));
         }
         // Limits on the grid, so that values fall on them (a value on a limit conforms).
-        let on_grid = |k: f64| format!("{:.*}", decimals, centre.round() + k * step).parse::<f64>().unwrap();
-        let limits = Limits { nominal: None, lsl: Some(on_grid(-1000.0)), usl: Some(on_grid(1000.0)) };
+        let on_grid = grid_values(&[-1000, 1000], decimals, centre);
+        let limits = Limits { nominal: None, lsl: Some(on_grid[0]), usl: Some(on_grid[1]) };
         let n = x.len() as f64;
         let below = x.iter().filter(|&&v| v < limits.lsl.unwrap()).count() as f64 / n * 1e6;
         let above = x.iter().filter(|&&v| v > limits.usl.unwrap()).count() as f64 / n * 1e6;
@@ -227,11 +236,7 @@ proptest! {
         off_grid in prop::collection::vec((0usize..1024, -1e-3f64..1e-3), 0..2),
     ) {
         use capstack::stats::moments::Runs;
-        let step = 10f64.powi(-(decimals as i32));
-        let mut x: Vec<f64> = grid
-            .iter()
-            .map(|&k| format!("{:.*}", decimals, centre.round() + k as f64 * step).parse().unwrap())
-            .collect();
+        let mut x = grid_values(&grid, decimals, centre);
         for i in nudged {
             x[i] = f64::from_bits(x[i].to_bits() + 1);
         }

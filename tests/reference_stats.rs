@@ -534,18 +534,9 @@ fn anderson_darling_of_a_large_gauge_sample_matches_statsmodels() {
     // distinct values, so capstack counts them on the grid and interpolates ln Φ. statsmodels
     // 0.15.0 normal_ad on the same values (generated in Python, rounded by '%.5f') gives
     // A² = 35.054218670062255 (its p underflows to 0).
-    let mut state = 777u64;
-    let x: Vec<f64> = (0..200_000)
-        .map(|_| {
-            let mut s = 0.0;
-            for _ in 0..4 {
-                state = state
-                    .wrapping_mul(6364136223846793005)
-                    .wrapping_add(1442695040888963407);
-                s += (state >> 11) as f64 / (1u64 << 53) as f64;
-            }
-            format!("{:.5}", 10.0 + (s - 2.0) * 0.01).parse().unwrap()
-        })
+    let x: Vec<f64> = four_uniform_sums(200_000)
+        .iter()
+        .map(|v| format!("{v:.5}").parse().unwrap())
         .collect();
     let c = capability(&x, None, &Limits::default(), &CapabilityOptions::default());
     close(
@@ -561,19 +552,7 @@ fn anderson_darling_of_a_large_sample_matches_statsmodels() {
     // 20,000 sums of four uniforms from the benchmark's LCG (exact in binary, so the same in
     // Python): statsmodels 0.15.0 normal_ad gives A² = 2.2079034069683985, p = 1.3389837589053984e-05.
     // Above 1024 distinct values capstack interpolates ln Φ.
-    let mut state = 777u64;
-    let mut x: Vec<f64> = (0..20_000)
-        .map(|_| {
-            let mut s = 0.0;
-            for _ in 0..4 {
-                state = state
-                    .wrapping_mul(6364136223846793005)
-                    .wrapping_add(1442695040888963407);
-                s += (state >> 11) as f64 / (1u64 << 53) as f64;
-            }
-            10.0 + (s - 2.0) * 0.01
-        })
-        .collect();
+    let mut x = four_uniform_sums(20_000);
     let m = moments(&x);
     x.sort_by(f64::total_cmp);
     let ad = anderson_darling(&x, m.mean, m.sd).unwrap();
