@@ -46,9 +46,6 @@ pub fn moments(x: &[f64]) -> Moments {
     // Four interleaved accumulators of each sum (lanes j = i mod 4): independent additions
     // keep the FPU busy, and shorter chains lose fewer digits.
     let (mut s1, mut m2, mut m3, mut m4) = ([0.0; 4], [0.0; 4], [0.0; 4], [0.0; 4]);
-    // Lanes for the extremes too, by comparison (as f64::min, a NaN is passed over): no
-    // NaN-propagating min/max sequence in the loop, which then vectorises.
-    let (mut lo, mut hi) = ([f64::INFINITY; 4], [f64::NEG_INFINITY; 4]);
     let mut chunks = x.chunks_exact(4);
     for chunk in &mut chunks {
         for j in 0..4 {
@@ -59,8 +56,6 @@ pub fn moments(x: &[f64]) -> Moments {
             m2[j] += d2;
             m3[j] += d2 * d;
             m4[j] += d2 * d2;
-            lo[j] = if v < lo[j] { v } else { lo[j] };
-            hi[j] = if v > hi[j] { v } else { hi[j] };
         }
     }
     for &v in chunks.remainder() {
@@ -70,11 +65,8 @@ pub fn moments(x: &[f64]) -> Moments {
         m2[0] += d2;
         m3[0] += d2 * d;
         m4[0] += d2 * d2;
-        lo[0] = if v < lo[0] { v } else { lo[0] };
-        hi[0] = if v > hi[0] { v } else { hi[0] };
     }
-    let min = lo.into_iter().fold(f64::INFINITY, f64::min);
-    let max = hi.into_iter().fold(f64::NEG_INFINITY, f64::max);
+    let (min, max) = extremes(x);
     let lanes = |a: [f64; 4]| (a[0] + a[1]) + (a[2] + a[3]);
     let sums = CentralSums {
         n,

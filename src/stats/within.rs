@@ -37,8 +37,12 @@ pub fn moving_range_sigma(x: &[f64]) -> f64 {
     mean_moving_range(x) / d2(2)
 }
 
-/// MR̄, the mean moving range of span 2 (summed in lanes: the I-MR chart's MR̄ is this number).
+/// MR̄, the mean moving range of span 2 (summed in lanes: the I-MR chart's MR̄ is this number);
+/// NaN with fewer than two values.
 pub fn mean_moving_range(x: &[f64]) -> f64 {
+    if x.len() < 2 {
+        return f64::NAN;
+    }
     super::moments::sum_of_steps(x, |before, v| (v - before).abs()) / (x.len() - 1) as f64
 }
 
