@@ -7,25 +7,19 @@ use capstack::study::{study, ModelRequest, StudySettings};
 use criterion::{criterion_group, criterion_main, Criterion};
 use std::io::Write;
 
+mod common;
+
 fn file() -> std::path::PathBuf {
     let path = std::env::temp_dir().join("capstack_bench_200000x50.csv");
     if !path.exists() {
         let mut f = std::io::BufWriter::new(std::fs::File::create(&path).unwrap());
         let header: Vec<String> = (0..50).map(|j| format!("f{j}")).collect();
         writeln!(f, "part,{}", header.join(",")).unwrap();
-        let mut state = 777u64;
-        for i in 0..200_000 {
+        let values = common::four_uniform_sums(200_000 * 50);
+        for (i, row) in values.chunks(50).enumerate() {
             write!(f, "P{i:07}").unwrap();
-            for _ in 0..50 {
-                // Sum of four uniforms: near-normal, deterministic.
-                let mut s = 0.0;
-                for _ in 0..4 {
-                    state = state
-                        .wrapping_mul(6364136223846793005)
-                        .wrapping_add(1442695040888963407);
-                    s += (state >> 11) as f64 / (1u64 << 53) as f64;
-                }
-                write!(f, ",{:.5}", 10.0 + (s - 2.0) * 0.01).unwrap();
+            for v in row {
+                write!(f, ",{v:.5}").unwrap();
             }
             writeln!(f).unwrap();
         }

@@ -140,21 +140,6 @@ pub fn feature<'a>(v: &'a serde_json::Value, name: &str) -> &'a serde_json::Valu
         .unwrap_or_else(|| panic!("no feature {name}"))
 }
 
-/// `n` sums of four uniforms from the benchmark's LCG (seed 777), as 10 + (s − 2)·0.01: exact
-/// in binary, so the same values in Python (`benches/capability_reference.py`'s file is them
-/// written to 5 decimals).
-pub fn four_uniform_sums(n: usize) -> Vec<f64> {
-    let mut state = 777u64;
-    (0..n)
-        .map(|_| {
-            let mut s = 0.0;
-            for _ in 0..4 {
-                state = state
-                    .wrapping_mul(6364136223846793005)
-                    .wrapping_add(1442695040888963407);
-                s += (state >> 11) as f64 / (1u64 << 53) as f64;
-            }
-            10.0 + (s - 2.0) * 0.01
-        })
-        .collect()
-}
+// The capability benchmark's values, from the generator that writes its file.
+#[path = "../benches/common/mod.rs"]
+pub mod bench_data;

@@ -534,7 +534,7 @@ fn anderson_darling_of_a_large_gauge_sample_matches_statsmodels() {
     // distinct values, so capstack counts them on the grid and interpolates ln Φ. statsmodels
     // 0.15.0 normal_ad on the same values (generated in Python, rounded by '%.5f') gives
     // A² = 35.054218670062255 (its p underflows to 0).
-    let x: Vec<f64> = four_uniform_sums(200_000)
+    let x: Vec<f64> = bench_data::four_uniform_sums(200_000)
         .iter()
         .map(|v| format!("{v:.5}").parse().unwrap())
         .collect();
@@ -552,7 +552,7 @@ fn anderson_darling_of_a_large_sample_matches_statsmodels() {
     // 20,000 sums of four uniforms from the benchmark's LCG (exact in binary, so the same in
     // Python): statsmodels 0.15.0 normal_ad gives A² = 2.2079034069683985, p = 1.3389837589053984e-05.
     // Above 1024 distinct values capstack interpolates ln Φ.
-    let mut x = four_uniform_sums(20_000);
+    let mut x = bench_data::four_uniform_sums(20_000);
     let m = moments(&x);
     x.sort_by(f64::total_cmp);
     let ad = anderson_darling(&x, m.mean, m.sd).unwrap();

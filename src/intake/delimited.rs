@@ -796,8 +796,7 @@ fn plain_decimal(s: &[u8], from: usize, to: usize) -> Option<f64> {
     // Not `or_else`: a call the AVX2 build would not inline.
     match short_decimal(s, from, to) {
         Some(v) => Some(v),
-        // A cell holds no newline: read with it as the delimiter, the number must fill it.
-        None => scan_decimal(&s[from..to], &mut 0, b'\n'),
+        None => scan_decimal(&s[from..to]),
     }
 }
 
@@ -846,22 +845,19 @@ fn short_decimal(s: &[u8], from: usize, to: usize) -> Option<f64> {
     Some(if neg { -v } else { v })
 }
 
-/// Reads a plain decimal (`-12.345`, `3`, at most 15 digits) starting at `*pos` and ending at
-/// the delimiter or the end of `rec`, and moves `*pos` there; `None` (and `*pos` unmoved) for
+/// [`plain_decimal`] a byte at a time: the whole of `cell` must be the number; `None` for
 /// anything else.
 #[inline]
-fn scan_decimal(rec: &[u8], pos: &mut usize, delimiter: u8) -> Option<f64> {
-    let s = &rec[*pos..];
-    let (neg, start) = match s.first() {
+fn scan_decimal(cell: &[u8]) -> Option<f64> {
+    let (neg, start) = match cell.first() {
         Some(b'-') => (true, 1),
         Some(b'+') => (false, 1),
         _ => (false, 0),
     };
-    let (mantissa, frac, end) = digits_by_one(s, start)?;
-    if end < s.len() && s[end] != delimiter {
+    let (mantissa, frac, end) = digits_by_one(cell, start)?;
+    if end != cell.len() {
         return None;
     }
-    *pos += end;
     let v = mantissa as f64 / cells::POW10[frac];
     Some(if neg { -v } else { v })
 }
@@ -1080,7 +1076,7 @@ mod tests {
     }
 
     proptest! {
-        /// A plain decimal reads as the std parser reads it.
+        /// A plain decimal reads as the std parser reads it, and only when it fills the cell.
         #[test]
         fn decimals_scan_as_std_parses_them(
             int in 0u64..100_000_000,
@@ -1094,15 +1090,13 @@ mod tests {
             }
             let cell = text.clone();
             text.push_str(tail);
-            let mut pos = 0;
-            let got = scan_decimal(text.as_bytes(), &mut pos, b',');
-            let ok_tail = tail.is_empty() || tail.starts_with(',');
             let digits = cell.bytes().filter(u8::is_ascii_digit).count();
-            if ok_tail && digits <= 15 {
-                prop_assert_eq!(got, Some(cell.parse::<f64>().unwrap()), "{}", text);
-                prop_assert_eq!(pos, cell.len());
-            } else if !ok_tail {
-                prop_assert_eq!(got, None);
+            if digits <= 15 {
+                prop_assert_eq!(scan_decimal(cell.as_bytes()), Some(cell.parse::<f64>().unwrap()), "{}", cell);
+            }
+            // Anything after the number, a delimiter included, is not a plain decimal.
+            if !tail.is_empty() {
+                prop_assert_eq!(scan_decimal(text.as_bytes()), None, "{}", text);
             }
         }
     }
