@@ -644,21 +644,31 @@ fn parse_plain(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piec
         // SAFETY: the CPU has the features the function is compiled for, checked above.
         return unsafe { parse_plain_avx2(s, lines_before, ctx, piece) };
     }
-    parse_plain_with(s, lines_before, ctx, piece)
+    parse_plain_with::<false>(s, lines_before, ctx, piece)
 }
 
 /// [`parse_plain_with`] compiled for AVX2 processors (wider compares, single-instruction bit
-/// counts): the same steps, the same values.
+/// counts, four cells read at once by [`four_short_decimals`]): the same values.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2,bmi1,popcnt")]
 fn parse_plain_avx2(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) -> bool {
-    parse_plain_with(s, lines_before, ctx, piece)
+    parse_plain_with::<true>(s, lines_before, ctx, piece)
 }
 
+/// `WIDE`: the build for AVX2 processors.
 #[inline(always)]
-fn parse_plain_with(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut Piece) -> bool {
+fn parse_plain_with<const WIDE: bool>(
+    s: &[u8],
+    lines_before: u64,
+    ctx: &ParseContext,
+    piece: &mut Piece,
+) -> bool {
     let ncol = ctx.names.len();
     let delimiter = ctx.delimiter;
+    // Columns that start four numeric ones (not the first: its start is not after an end).
+    let four_numeric: Vec<bool> = (0..ncol)
+        .map(|c| c >= 1 && c + 4 <= ncol && !ctx.keep[c..c + 4].contains(&true))
+        .collect();
     let mut line = lines_before;
     let mut ends = Vec::new();
     let mut non_ascii = false;
@@ -686,25 +696,188 @@ fn parse_plain_with(s: &[u8], lines_before: u64, ctx: &ParseContext, piece: &mut
             continue;
         }
         let row = piece.start_row(line);
-        let mut from = 0;
-        for (c, &to) in ends[..cells].iter().enumerate() {
-            let plain = if c < ncol && !ctx.keep[c] {
-                plain_decimal(s, rec_start + from, rec_start + to)
-            } else {
-                None
-            };
-            match (c < ncol, plain) {
-                (true, Some(v)) => piece.numbers[c][row] = v,
-                (true, None) => piece.cell(c, row, &rec[from..to], ctx),
-                (false, _) => piece.extra_cell(c, &rec[from..to], line, ctx),
+        let cell_at = |c: usize| (if c == 0 { 0 } else { ends[c - 1] + 1 }, ends[c]);
+        let mut c = 0;
+        while c < cells {
+            #[cfg(target_arch = "x86_64")]
+            if WIDE && c + 4 <= cells && four_numeric.get(c) == Some(&true) {
+                let window: &[usize; 5] = ends[c - 1..c + 4].try_into().expect("five ends");
+                // SAFETY: `WIDE` only in the AVX2 build, run once the processor has AVX2.
+                let (read, values) = unsafe { four_short_decimals(s, rec_start, window) };
+                for (k, v) in values.into_iter().enumerate() {
+                    if read & (1 << k) != 0 {
+                        piece.numbers[c + k][row] = v;
+                    } else {
+                        let (from, to) = cell_at(c + k);
+                        plain_cell(piece, ctx, s, rec_start, c + k, from, to, line, row);
+                    }
+                }
+                c += 4;
+                continue;
             }
-            from = to + 1;
+            let (from, to) = cell_at(c);
+            plain_cell(piece, ctx, s, rec_start, c, from, to, line, row);
+            c += 1;
         }
         for missing in cells..ncol {
             piece.cell(missing, row, b"", ctx);
         }
     }
     non_ascii
+}
+
+/// Cell `c` of the record at `rec_start` (bytes `from..to` of it) in piece row `row`: a plain
+/// decimal read at once, any other cell by [`Piece::cell`], a cell beyond the header listed.
+#[inline(always)]
+#[allow(clippy::too_many_arguments)]
+fn plain_cell(
+    piece: &mut Piece,
+    ctx: &ParseContext,
+    s: &[u8],
+    rec_start: usize,
+    c: usize,
+    from: usize,
+    to: usize,
+    line: u64,
+    row: usize,
+) {
+    let cell = &s[rec_start + from..rec_start + to];
+    if c >= ctx.names.len() {
+        piece.extra_cell(c, cell, line, ctx);
+    } else if ctx.keep[c] {
+        piece.cell(c, row, cell, ctx);
+    } else {
+        match plain_decimal(s, rec_start + from, rec_start + to) {
+            Some(v) => piece.numbers[c][row] = v,
+            None => piece.cell(c, row, cell, ctx),
+        }
+    }
+}
+
+/// [`short_decimal`] of four neighbouring cells at once, in the four lanes of AVX2 registers:
+/// cell k is `from..to` with `from = rec_start + ends[k] + 1`, `to = rec_start + ends[k + 1]`
+/// (as [`record_cells`] gives them). Returns which of the four read (bit k) and their values.
+/// The same steps as [`short_decimal`]; the division is a vector one, also correctly rounded.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+fn four_short_decimals(s: &[u8], rec_start: usize, ends: &[usize; 5]) -> (u32, [f64; 4]) {
+    use std::arch::x86_64::*;
+    const ONES: i64 = 0x0101_0101_0101_0101;
+    let ones = |b: i64| _mm256_set1_epi64x(b.wrapping_mul(ONES));
+    let at = |k: usize| (rec_start + ends[k]) as i64;
+    let from = _mm256_setr_epi64x(at(0) + 1, at(1) + 1, at(2) + 1, at(3) + 1);
+    let to = _mm256_setr_epi64x(at(1), at(2), at(3), at(4));
+    let len = _mm256_sub_epi64(to, from);
+    let all = _mm256_set1_epi64x(-1);
+    let zero = _mm256_setzero_si256();
+    let gt = |a, b: i64| _mm256_cmpgt_epi64(a, _mm256_set1_epi64x(b));
+    // 1 ≤ len ≤ 8, and eight bytes of `s` end at `to` (cells end within `s`).
+    let len_ok = _mm256_andnot_si256(gt(len, 8), gt(len, 0));
+    let room = gt(to, 7);
+    // SAFETY: only lanes with to ≥ 8 are loaded: the eight bytes before `to` ≤ s.len().
+    let word = unsafe {
+        _mm256_mask_i64gather_epi64::<1>(
+            zero,
+            s.as_ptr().cast(),
+            _mm256_sub_epi64(to, _mm256_set1_epi64x(8)),
+            room,
+        )
+    };
+    let bytes_from_top = |n| _mm256_slli_epi64::<3>(_mm256_sub_epi64(_mm256_set1_epi64x(8), n));
+    // The cell's first byte, for its sign.
+    let first = _mm256_and_si256(
+        _mm256_srlv_epi64(word, bytes_from_top(len)),
+        _mm256_set1_epi64x(0xff),
+    );
+    let neg = _mm256_cmpeq_epi64(first, _mm256_set1_epi64x(b'-' as i64));
+    let sign = _mm256_or_si256(
+        neg,
+        _mm256_cmpeq_epi64(first, _mm256_set1_epi64x(b'+' as i64)),
+    );
+    // A sign lane is all ones (−1): the body is the bytes after it.
+    let body = _mm256_add_epi64(len, sign);
+    let body_bytes = _mm256_sllv_epi64(all, bytes_from_top(body));
+    let digits = _mm256_xor_si256(word, ones(0x30));
+    let high = ones(0x80);
+    let non_digit = _mm256_and_si256(
+        _mm256_and_si256(
+            _mm256_or_si256(
+                _mm256_add_epi64(_mm256_and_si256(digits, ones(0x7f)), ones(0x76)),
+                digits,
+            ),
+            high,
+        ),
+        body_bytes,
+    );
+    // At most one non-digit, and that a point; a point needs a digit beside it.
+    let lowest = _mm256_and_si256(non_digit, _mm256_sub_epi64(zero, non_digit));
+    let single = _mm256_cmpeq_epi64(
+        _mm256_and_si256(
+            non_digit,
+            _mm256_sub_epi64(non_digit, _mm256_set1_epi64x(1)),
+        ),
+        zero,
+    );
+    let points = _mm256_and_si256(
+        _mm256_and_si256(_mm256_cmpeq_epi8(word, ones(b'.' as i64)), high),
+        body_bytes,
+    );
+    let point_ok = _mm256_cmpeq_epi64(points, non_digit);
+    let no_point = _mm256_cmpeq_epi64(non_digit, zero);
+    let body_ok = _mm256_or_si256(gt(body, 1), _mm256_and_si256(no_point, gt(body, 0)));
+    let read = _mm256_and_si256(
+        _mm256_and_si256(
+            _mm256_and_si256(len_ok, room),
+            _mm256_and_si256(single, point_ok),
+        ),
+        body_ok,
+    );
+    // Take the point out: the bytes below it move up one, leaving `body − 1` digits.
+    let below = _mm256_and_si256(
+        digits,
+        _mm256_sub_epi64(_mm256_srli_epi64::<7>(lowest), _mm256_set1_epi64x(1)),
+    );
+    let above_mask = _mm256_andnot_si256(
+        _mm256_sub_epi64(_mm256_slli_epi64::<1>(lowest), _mm256_set1_epi64x(1)),
+        all,
+    );
+    let kept = _mm256_sllv_epi64(
+        all,
+        bytes_from_top(_mm256_sub_epi64(body, _mm256_set1_epi64x(1))),
+    );
+    let with_point = _mm256_and_si256(
+        _mm256_or_si256(
+            _mm256_slli_epi64::<8>(below),
+            _mm256_and_si256(digits, above_mask),
+        ),
+        kept,
+    );
+    let aligned = _mm256_blendv_epi8(with_point, _mm256_and_si256(digits, body_bytes), no_point);
+    // Digits after the point: the bytes above it.
+    let frac = _mm256_sad_epu8(_mm256_and_si256(above_mask, ones(1)), zero);
+    // Eight digits, the first the most significant, to their number: pairs, fours, eight.
+    let pairs = _mm256_maddubs_epi16(aligned, _mm256_set1_epi16(0x010A));
+    let fours = _mm256_madd_epi16(pairs, _mm256_set1_epi32(0x0001_0064));
+    let mantissa = _mm256_add_epi64(
+        _mm256_mul_epu32(fours, _mm256_set1_epi64x(10_000)),
+        _mm256_srli_epi64::<32>(fours),
+    );
+    // Below 2⁵², a whole number is exact as the low bits of 2⁵² + m.
+    let two52 = _mm256_set1_pd((1u64 << 52) as f64);
+    let m = _mm256_sub_pd(
+        _mm256_castsi256_pd(_mm256_or_si256(mantissa, _mm256_castpd_si256(two52))),
+        two52,
+    );
+    // SAFETY: frac ≤ 8 (bytes of a word), within the table.
+    let scale = unsafe { _mm256_i64gather_pd::<8>(cells::POW10.as_ptr(), frac) };
+    let value = _mm256_xor_pd(
+        _mm256_div_pd(m, scale),
+        _mm256_and_pd(_mm256_castsi256_pd(neg), _mm256_set1_pd(-0.0)),
+    );
+    let mut values = [0.0; 4];
+    // SAFETY: four f64 into an array of four.
+    unsafe { _mm256_storeu_pd(values.as_mut_ptr(), value) };
+    (_mm256_movemask_pd(_mm256_castsi256_pd(read)) as u32, values)
 }
 
 /// The record that starts at `start` and ends at the next newline (or the end of `s`): where
@@ -841,7 +1014,8 @@ fn short_decimal(s: &[u8], from: usize, to: usize) -> Option<f64> {
     let mantissa = ((pairs & 0x0000_00FF_0000_00FF).wrapping_mul(100 + (1_000_000 << 32)))
         .wrapping_add(((pairs >> 16) & 0x0000_00FF_0000_00FF).wrapping_mul(1 + (10_000 << 32)))
         >> 32;
-    let v = mantissa as f64 / cells::POW10[frac];
+    // At most eight digits: exact as i64 and as f64 (a signed conversion is one instruction).
+    let v = mantissa as i64 as f64 / cells::POW10[frac];
     Some(if neg { -v } else { v })
 }
 
@@ -1054,7 +1228,7 @@ mod tests {
             // The build for any x86-64 (or other) processor, whichever one ran above.
             let (mut lines_c, mut numbers_c) = (vec![0; cap], vec![vec![f64::NAN; cap]; ncol]);
             let mut baseline = Piece::new(&mut lines_c, numbers_c.iter_mut().map(|v| v.as_mut_slice()).collect());
-            parse_plain_with(s, 3, &ctx, &mut baseline);
+            parse_plain_with::<false>(s, 3, &ctx, &mut baseline);
             prop_assert_eq!(summary(&baseline), summary(&quoted));
         }
     }
@@ -1070,8 +1244,40 @@ mod tests {
         ) {
             let text = format!("{before},{cell},{after}");
             let from = before.len() + 1;
+            let want = plain_by_rule(&cell).map(f64::to_bits);
             let got = plain_decimal(text.as_bytes(), from, from + cell.len());
-            prop_assert_eq!(got.map(f64::to_bits), plain_by_rule(&cell).map(f64::to_bits), "{:?}", text);
+            prop_assert_eq!(got.map(f64::to_bits), want, "{:?}", text);
+        }
+    }
+
+    proptest! {
+        /// Four cells read at once are read as [`short_decimal`] reads each: the same cells
+        /// read, to the same bits, whatever the cells hold and wherever the line starts.
+        #[test]
+        fn four_cells_at_once_read_as_one_at_a_time(
+            before in "[0-9.x-]{0,10}",
+            cells in prop::collection::vec(
+                "[-+]?[0-9]{0,5}[.]?[0-9]{0,4}|[-+.0-9e ]{0,9}|[0-9]{8,9}|[.][0-9]{1,7}",
+                4,
+            ),
+        ) {
+            #[cfg(target_arch = "x86_64")]
+            if std::is_x86_feature_detected!("avx2") {
+                let text = format!("{before},{}", cells.join(","));
+                let s = text.as_bytes();
+                // Cell ends as record_cells gives them, from the line's start at 0.
+                let mut ends = [before.len(); 5];
+                for k in 0..4 {
+                    ends[k + 1] = ends[k] + 1 + cells[k].len();
+                }
+                // SAFETY: the processor has AVX2, checked above.
+                let (read, values) = unsafe { four_short_decimals(s, 0, &ends) };
+                for k in 0..4 {
+                    let one = short_decimal(s, ends[k] + 1, ends[k + 1]);
+                    let four = (read & (1 << k) != 0).then_some(values[k]);
+                    prop_assert_eq!(four.map(f64::to_bits), one.map(f64::to_bits), "{:?} cell {}", text, k);
+                }
+            }
         }
     }
 
