@@ -404,9 +404,7 @@ impl<'a> Piece<'a> {
         }
         match parse_cell(cell, ctx.decimal_comma) {
             Ok(v) => {
-                if ctx.decimal_comma && cell.contains(&b',') {
-                    self.decimal_comma_used = true;
-                }
+                self.note_decimal_comma(cell, ctx);
                 self.numbers[c][row] = v;
             }
             Err(reason) => {
@@ -419,6 +417,14 @@ impl<'a> Piece<'a> {
                 };
                 col.bad.push(BadCell::new(row, text, reason));
             }
+        }
+    }
+
+    /// Notes a decimal comma in `cell`, a number just read (once one is seen, no more looking).
+    #[inline(always)]
+    fn note_decimal_comma(&mut self, cell: &[u8], ctx: &ParseContext) {
+        if ctx.decimal_comma && !self.decimal_comma_used && cell.contains(&b',') {
+            self.decimal_comma_used = true;
         }
     }
 
@@ -703,10 +709,15 @@ fn parse_plain_with<const WIDE: bool>(
             if WIDE && c + 4 <= cells && four_numeric.get(c) == Some(&true) {
                 let window: &[usize; 5] = ends[c - 1..c + 4].try_into().expect("five ends");
                 // SAFETY: `WIDE` only in the AVX2 build, run once the processor has AVX2.
-                let (read, values) = unsafe { four_short_decimals(s, rec_start, window) };
+                let (read, values) =
+                    unsafe { four_short_decimals(s, rec_start, window, ctx.decimal_comma) };
                 for (k, v) in values.into_iter().enumerate() {
                     if read & (1 << k) != 0 {
                         piece.numbers[c + k][row] = v;
+                        if ctx.decimal_comma && !piece.decimal_comma_used {
+                            let (from, to) = cell_at(c + k);
+                            piece.note_decimal_comma(&s[rec_start + from..rec_start + to], ctx);
+                        }
                     } else {
                         let (from, to) = cell_at(c + k);
                         plain_cell(piece, ctx, s, rec_start, c + k, from, to, line, row);
@@ -747,8 +758,11 @@ fn plain_cell(
     } else if ctx.keep[c] {
         piece.cell(c, row, cell, ctx);
     } else {
-        match plain_decimal(s, rec_start + from, rec_start + to) {
-            Some(v) => piece.numbers[c][row] = v,
+        match plain_decimal(s, rec_start + from, rec_start + to, ctx.decimal_comma) {
+            Some(v) => {
+                piece.numbers[c][row] = v;
+                piece.note_decimal_comma(cell, ctx);
+            }
             None => piece.cell(c, row, cell, ctx),
         }
     }
@@ -756,11 +770,17 @@ fn plain_cell(
 
 /// [`short_decimal`] of four neighbouring cells at once, in the four lanes of AVX2 registers:
 /// cell k is `from..to` with `from = rec_start + ends[k] + 1`, `to = rec_start + ends[k + 1]`
-/// (as [`record_cells`] gives them). Returns which of the four read (bit k) and their values.
-/// The same steps as [`short_decimal`]; the division is a vector one, also correctly rounded.
+/// (as [`record_cells`] gives them); with `comma` the point may be a comma. Returns which of
+/// the four read (bit k) and their values. The same steps as [`short_decimal`]; the division
+/// is a vector one, also correctly rounded.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
-fn four_short_decimals(s: &[u8], rec_start: usize, ends: &[usize; 5]) -> (u32, [f64; 4]) {
+fn four_short_decimals(
+    s: &[u8],
+    rec_start: usize,
+    ends: &[usize; 5],
+    comma: bool,
+) -> (u32, [f64; 4]) {
     use std::arch::x86_64::*;
     const ONES: i64 = 0x0101_0101_0101_0101;
     let ones = |b: i64| _mm256_set1_epi64x(b.wrapping_mul(ONES));
@@ -818,10 +838,12 @@ fn four_short_decimals(s: &[u8], rec_start: usize, ends: &[usize; 5]) -> (u32, [
         ),
         zero,
     );
-    let points = _mm256_and_si256(
-        _mm256_and_si256(_mm256_cmpeq_epi8(word, ones(b'.' as i64)), high),
-        body_bytes,
+    let mark = if comma { b',' } else { b'.' };
+    let marks = _mm256_or_si256(
+        _mm256_cmpeq_epi8(word, ones(b'.' as i64)),
+        _mm256_cmpeq_epi8(word, ones(mark as i64)),
     );
+    let points = _mm256_and_si256(_mm256_and_si256(marks, high), body_bytes);
     let point_ok = _mm256_cmpeq_epi64(points, non_digit);
     let no_point = _mm256_cmpeq_epi64(non_digit, zero);
     let body_ok = _mm256_or_si256(gt(body, 1), _mm256_and_si256(no_point, gt(body, 0)));
@@ -961,24 +983,24 @@ fn record_cells(
     (n + 1, end)
 }
 
-/// A plain decimal (`-12.345`, `3`, at most 15 digits) filling `s[from..to]` exactly; `None`
-/// for anything else. Same value as [`parse_cell`]: both divide an exact mantissa by an exact
-/// power of ten.
+/// A plain decimal (`-12.345`, `3`, at most 15 digits; with `comma`, `-12,345` too) filling
+/// `s[from..to]` exactly; `None` for anything else. Same value as [`parse_cell`]: both divide
+/// an exact mantissa by an exact power of ten.
 #[inline(always)]
-fn plain_decimal(s: &[u8], from: usize, to: usize) -> Option<f64> {
+fn plain_decimal(s: &[u8], from: usize, to: usize, comma: bool) -> Option<f64> {
     // Not `or_else`: a call the AVX2 build would not inline.
-    match short_decimal(s, from, to) {
+    match short_decimal(s, from, to, comma) {
         Some(v) => Some(v),
-        None => scan_decimal(&s[from..to]),
+        None => scan_decimal(&s[from..to], comma),
     }
 }
 
 /// [`plain_decimal`] for cells of at most eight bytes, all at once: the eight bytes ending at
 /// `to` as one word, checked for digits and one point, the point taken out, the digits added
 /// up by multiplying in pairs. `None` when the cell is longer, starts within the first eight
-/// bytes of `s`, or is anything else.
+/// bytes of `s`, or is anything else. With `comma` the point may be a comma.
 #[inline(always)]
-fn short_decimal(s: &[u8], from: usize, to: usize) -> Option<f64> {
+fn short_decimal(s: &[u8], from: usize, to: usize, comma: bool) -> Option<f64> {
     const ONES: u64 = 0x0101_0101_0101_0101;
     let len = to.checked_sub(from)?;
     if len == 0 || len > 8 || to < 8 {
@@ -1000,7 +1022,9 @@ fn short_decimal(s: &[u8], from: usize, to: usize) -> Option<f64> {
         (digits & body_bytes, 0)
     } else {
         let at = (non_digit.trailing_zeros() / 8) as usize;
-        if non_digit & (non_digit - 1) != 0 || (word >> (at * 8)) as u8 != b'.' || body == 1 {
+        let mark = (word >> (at * 8)) as u8;
+        if non_digit & (non_digit - 1) != 0 || !(mark == b'.' || comma && mark == b',') || body == 1
+        {
             return None;
         }
         // Take the point out: the bytes below it move up one, leaving `body - 1` digits.
@@ -1021,13 +1045,13 @@ fn short_decimal(s: &[u8], from: usize, to: usize) -> Option<f64> {
 /// [`plain_decimal`] a byte at a time: the whole of `cell` must be the number; `None` for
 /// anything else.
 #[inline]
-fn scan_decimal(cell: &[u8]) -> Option<f64> {
+fn scan_decimal(cell: &[u8], comma: bool) -> Option<f64> {
     let (neg, start) = match cell.first() {
         Some(b'-') => (true, 1),
         Some(b'+') => (false, 1),
         _ => (false, 0),
     };
-    let (mantissa, frac, end) = digits_by_one(cell, start)?;
+    let (mantissa, frac, end) = digits_by_one(cell, start, comma)?;
     if end != cell.len() {
         return None;
     }
@@ -1035,9 +1059,10 @@ fn scan_decimal(cell: &[u8]) -> Option<f64> {
     Some(if neg { -v } else { v })
 }
 
-/// The mantissa, the digits after the point and the end of `digits[.digits]` from `i`, a byte
-/// at a time; `None` without digits or with more than 15.
-fn digits_by_one(s: &[u8], mut i: usize) -> Option<(u64, usize, usize)> {
+/// The mantissa, the digits after the point and the end of `digits[.digits]` from `i` (with
+/// `comma`, `digits[,digits]` too), a byte at a time; `None` without digits or with more
+/// than 15.
+fn digits_by_one(s: &[u8], mut i: usize, comma: bool) -> Option<(u64, usize, usize)> {
     let mut mantissa = 0u64;
     let from = i;
     while i < s.len() && s[i].is_ascii_digit() {
@@ -1048,7 +1073,7 @@ fn digits_by_one(s: &[u8], mut i: usize) -> Option<(u64, usize, usize)> {
     }
     let int_digits = i - from;
     let mut frac = 0;
-    if i < s.len() && s[i] == b'.' {
+    if i < s.len() && (s[i] == b'.' || comma && s[i] == b',') {
         i += 1;
         let frac_from = i;
         while i < s.len() && s[i].is_ascii_digit() {
@@ -1170,6 +1195,7 @@ mod tests {
             Just("1 ".to_string()),
             Just("µ1.5".to_string()),
             (-1e4f64..1e4, 0usize..7).prop_map(|(v, d)| format!("{v:.d$}")),
+            (-1e4f64..1e4, 0usize..7).prop_map(|(v, d)| format!("{v:.d$}").replace('.', ",")),
         ]
     }
 
@@ -1243,8 +1269,14 @@ mod tests {
         ) {
             let text = format!("{before},{cell},{after}");
             let from = before.len() + 1;
-            let got = plain_decimal(text.as_bytes(), from, from + cell.len());
+            let got = plain_decimal(text.as_bytes(), from, from + cell.len(), false);
             prop_assert_eq!(got.map(f64::to_bits), plain_by_rule(&cell).map(f64::to_bits), "{:?}", text);
+            // In decimal-comma files the point may be a comma or a point.
+            for mark in [",", "."] {
+                let text = format!("{before};{};{after}", cell.replace('.', mark));
+                let got = plain_decimal(text.as_bytes(), from, from + cell.len(), true);
+                prop_assert_eq!(got.map(f64::to_bits), plain_by_rule(&cell).map(f64::to_bits), "{:?}", text);
+            }
         }
     }
 
@@ -1253,15 +1285,16 @@ mod tests {
         /// read, to the same bits, whatever the cells hold and wherever the line starts.
         #[test]
         fn four_cells_at_once_read_as_one_at_a_time(
-            before in "[0-9.x-]{0,10}",
+            before in "[0-9.,x-]{0,10}",
             cells in prop::collection::vec(
-                "[-+]?[0-9]{0,5}[.]?[0-9]{0,4}|[-+.0-9e ]{0,9}|[0-9]{8,9}|[.][0-9]{1,7}",
+                "[-+]?[0-9]{0,5}[.,]?[0-9]{0,4}|[-+.,0-9e ]{0,9}|[0-9]{8,9}|[.,][0-9]{1,7}",
                 4,
             ),
+            comma in any::<bool>(),
         ) {
             #[cfg(target_arch = "x86_64")]
             if std::is_x86_feature_detected!("avx2") {
-                let text = format!("{before},{}", cells.join(","));
+                let text = format!("{before};{}", cells.join(";"));
                 let s = text.as_bytes();
                 // Cell ends as record_cells gives them, from the line's start at 0.
                 let mut ends = [before.len(); 5];
@@ -1269,9 +1302,9 @@ mod tests {
                     ends[k + 1] = ends[k] + 1 + cells[k].len();
                 }
                 // SAFETY: the processor has AVX2, checked above.
-                let (read, values) = unsafe { four_short_decimals(s, 0, &ends) };
+                let (read, values) = unsafe { four_short_decimals(s, 0, &ends, comma) };
                 for k in 0..4 {
-                    let one = short_decimal(s, ends[k] + 1, ends[k + 1]);
+                    let one = short_decimal(s, ends[k] + 1, ends[k + 1], comma);
                     let four = (read & (1 << k) != 0).then_some(values[k]);
                     prop_assert_eq!(four.map(f64::to_bits), one.map(f64::to_bits), "{:?} cell {}", text, k);
                 }
@@ -1296,11 +1329,11 @@ mod tests {
             text.push_str(tail);
             let digits = cell.bytes().filter(u8::is_ascii_digit).count();
             if digits <= 15 {
-                prop_assert_eq!(scan_decimal(cell.as_bytes()), Some(cell.parse::<f64>().unwrap()), "{}", cell);
+                prop_assert_eq!(scan_decimal(cell.as_bytes(), false), Some(cell.parse::<f64>().unwrap()), "{}", cell);
             }
             // Anything after the number, a delimiter included, is not a plain decimal.
             if !tail.is_empty() {
-                prop_assert_eq!(scan_decimal(text.as_bytes()), None, "{}", text);
+                prop_assert_eq!(scan_decimal(text.as_bytes(), false), None, "{}", text);
             }
         }
     }
@@ -1327,6 +1360,52 @@ mod tests {
             );
             let rest = parse_piece(s, count.plain, 1, piece, &ctx).unwrap();
             assert_eq!(&lines[..rest.rows], [2, 4], "{text:?}");
+        }
+    }
+
+    /// A decimal comma is noted wherever the number was read: four cells at once, one at a
+    /// time (short and long) or by the general cell rule; points alone note none.
+    #[test]
+    fn notes_a_decimal_comma_on_every_path() {
+        let names = names(6);
+        let keep = [true, false, false, false, false, false];
+        let ctx = ParseContext {
+            path: "t.csv",
+            delimiter: b';',
+            decimal_comma: true,
+            names: &names,
+            keep: &keep,
+        };
+        let with_comma = [
+            "PART0001;1,25;2.5;3.5;4.5;6\nPART0002;1.25;2.5;3.5;4.5;6\n",
+            "P1;1.25;2.5;3.5;4.5;6,5\n",
+            "P1;1.25;2.5;3.5;4.5;6,123456789\n",
+            "P1;1.25;2.5;3.5;4.5; 6,5 \n",
+        ];
+        let cases = with_comma
+            .iter()
+            .map(|t| (*t, true))
+            .chain([("P1;1.25;2.5;3.5;4.5;6.5\nP2;1;2;3;4;5\n", false)]);
+        for (text, comma) in cases {
+            let s = text.as_bytes();
+            let cap = count_piece(s, false).capacity;
+            let mut lines = vec![0; cap];
+            let mut numbers = vec![vec![f64::NAN; cap]; 6];
+            let mut piece = Piece::new(
+                &mut lines,
+                numbers.iter_mut().map(|v| v.as_mut_slice()).collect(),
+            );
+            parse_plain(s, 1, &ctx, &mut piece);
+            assert_eq!(piece.decimal_comma_used, comma, "{text:?}");
+            let mut lines = vec![0; cap];
+            let mut numbers = vec![vec![f64::NAN; cap]; 6];
+            let mut piece = Piece::new(
+                &mut lines,
+                numbers.iter_mut().map(|v| v.as_mut_slice()).collect(),
+            );
+            parse_plain_with::<false>(s, 1, &ctx, &mut piece);
+            assert_eq!(piece.decimal_comma_used, comma, "baseline {text:?}");
+            assert_eq!(numbers[1][0], 1.25, "{text:?}");
         }
     }
 
